@@ -1,0 +1,117 @@
+//! Positions in project files, and a small value tree that keeps them.
+//!
+//! The engine builds [`Node`]s from YAML; a module that takes a structured
+//! input (a chute path, say) walks the tree and can point an error at the
+//! exact line and column. Owns no state.
+
+use std::fmt;
+use std::sync::Arc;
+
+/// Where a value stands in a project file: the path relative to the project
+/// root, and a 1-based line and column.
+#[derive(Debug, Clone, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub struct Span {
+    /// Path of the file relative to the project root, with `/` separators.
+    pub file: Arc<str>,
+    /// Line, counting from 1.
+    pub line: u32,
+    /// Column, counting from 1.
+    pub column: u32,
+}
+
+impl Span {
+    /// A span at the given file, line and column.
+    pub fn new(file: impl Into<Arc<str>>, line: u32, column: u32) -> Span {
+        Span {
+            file: file.into(),
+            line,
+            column,
+        }
+    }
+}
+
+impl fmt::Display for Span {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(f, "{}:{}:{}", self.file, self.line, self.column)
+    }
+}
+
+/// A YAML value with the position it was read from.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Node {
+    /// The value.
+    pub value: NodeValue,
+    /// Where it starts.
+    pub span: Span,
+}
+
+/// The kinds of value a [`Node`] holds.
+#[derive(Debug, Clone, PartialEq)]
+pub enum NodeValue {
+    /// `~`, `null` or nothing.
+    Null,
+    /// `true` or `false`.
+    Bool(bool),
+    /// A number written without quotes.
+    Number(f64),
+    /// Any other scalar, quoted or not.
+    Text(String),
+    /// A `- a` list or `[a, b]`.
+    List(Vec<Node>),
+    /// A `key: value` mapping, in file order. Keys are text scalars.
+    Map(Vec<(Node, Node)>),
+}
+
+impl Node {
+    /// The kind of value, in words for messages ("a list", "a number").
+    pub fn kind_name(&self) -> &'static str {
+        match self.value {
+            NodeValue::Null => "nothing (null)",
+            NodeValue::Bool(_) => "true/false",
+            NodeValue::Number(_) => "a number",
+            NodeValue::Text(_) => "text",
+            NodeValue::List(_) => "a list",
+            NodeValue::Map(_) => "a mapping",
+        }
+    }
+
+    /// The text of a scalar (text, number or bool), as written.
+    pub fn as_text(&self) -> Option<&str> {
+        match &self.value {
+            NodeValue::Text(s) => Some(s),
+            _ => None,
+        }
+    }
+
+    /// The number, when the node is an unquoted number.
+    pub fn as_number(&self) -> Option<f64> {
+        match self.value {
+            NodeValue::Number(x) => Some(x),
+            _ => None,
+        }
+    }
+
+    /// The entries, when the node is a list.
+    pub fn as_list(&self) -> Option<&[Node]> {
+        match &self.value {
+            NodeValue::List(items) => Some(items),
+            _ => None,
+        }
+    }
+
+    /// The entries, when the node is a mapping.
+    pub fn as_map(&self) -> Option<&[(Node, Node)]> {
+        match &self.value {
+            NodeValue::Map(entries) => Some(entries),
+            _ => None,
+        }
+    }
+
+    /// The value under `key`, when the node is a mapping that has it.
+    pub fn get(&self, key: &str) -> Option<&Node> {
+        self.as_map()?
+            .iter()
+            .find(|(k, _)| k.as_text() == Some(key))
+            .map(|(_, v)| v)
+    }
+}

@@ -1,0 +1,2 @@
+//! The packwright command line (being built).
+fn main() {}

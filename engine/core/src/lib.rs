@@ -1,0 +1,1 @@
+//! The packwright engine (being built).

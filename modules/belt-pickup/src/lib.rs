@@ -1,0 +1,1 @@
+//! The belt-pickup module (being written).

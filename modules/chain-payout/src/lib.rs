@@ -1,0 +1,1 @@
+//! The chain-payout module (being written).

@@ -1,0 +1,1 @@
+//! The chute-discharge module (being written).

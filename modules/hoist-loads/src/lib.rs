@@ -1,0 +1,1 @@
+//! The hoist-loads module (being written).

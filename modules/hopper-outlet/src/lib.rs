@@ -1,0 +1,1 @@
+//! The hopper-outlet module (being written).
