@@ -490,7 +490,12 @@ impl Plot {
     }
 
     /// Adds a layer.
-    pub fn layer(mut self, label: Option<&str>, style: LayerStyle, points: Vec<(f64, f64)>) -> Plot {
+    pub fn layer(
+        mut self,
+        label: Option<&str>,
+        style: LayerStyle,
+        points: Vec<(f64, f64)>,
+    ) -> Plot {
         self.layers.push(PlotLayer {
             label: label.map(Into::into),
             style,
@@ -634,14 +639,197 @@ impl std::fmt::Display for CalcError {
                 quantity,
                 message,
                 inputs,
-            } => write!(
-                f,
-                "{quantity}: {message} (driven by {})",
-                inputs.join(", ")
-            ),
+            } => write!(f, "{quantity}: {message} (driven by {})", inputs.join(", ")),
             CalcError::Contract(m) => write!(f, "module contract: {m}"),
         }
     }
 }
 
 impl std::error::Error for CalcError {}
+
+/// Turns the text of a scalar input into a [`Value`] of the declared kind.
+///
+/// The engine uses this for every scalar it reads, and tests use it through
+/// [`Inputs::from_text`]. Ranges are checked here too, so that an
+/// out-of-range value is reported with the input's own words. Structured
+/// inputs are not scalars and are refused.
+pub fn parse_scalar(spec: &crate::declare::InputSpec, text: &str) -> Result<Value, String> {
+    use crate::declare::InputKind;
+    use crate::units::parse_expecting;
+    let range_check = |x: f64, dimension: Dimension| -> Result<(), String> {
+        if spec.range.contains(x) {
+            return Ok(());
+        }
+        let unit = dimension.si_unit();
+        let show = |b: &crate::declare::Bound, word_incl: &str, word_excl: &str| {
+            format!(
+                "{} {} {unit}",
+                if b.inclusive { word_incl } else { word_excl },
+                crate::units::format_significant(b.value, 4)
+            )
+        };
+        let mut limits = Vec::new();
+        if let Some(b) = &spec.range.min {
+            limits.push(show(b, "at least", "more than"));
+        }
+        if let Some(b) = &spec.range.max {
+            limits.push(show(b, "at most", "less than"));
+        }
+        Err(format!(
+            "{} is out of range: `{}` must be {}",
+            text.trim(),
+            spec.name,
+            limits.join(" and ")
+        ))
+    };
+    match &spec.kind {
+        InputKind::Quantity { dimension } => {
+            let q = parse_expecting(text, *dimension).map_err(|e| {
+                format!(
+                    "{e}; `{}` takes {} with a unit, for example `{}`",
+                    spec.name,
+                    dimension.describe(),
+                    dimension.example()
+                )
+            })?;
+            range_check(q.value_si, *dimension)?;
+            Ok(Value::Quantity {
+                value: q.value_si,
+                dimension: *dimension,
+            })
+        }
+        InputKind::Number => {
+            let x: f64 = text.trim().parse().map_err(|_| {
+                format!(
+                    "`{}` is not a plain number; `{}` takes a number without unit, for example `0.6`",
+                    text.trim(),
+                    spec.name
+                )
+            })?;
+            if !x.is_finite() {
+                return Err(format!("`{}` is not a finite number", text.trim()));
+            }
+            range_check(x, Dimension::Dimensionless)?;
+            Ok(Value::Number(x))
+        }
+        InputKind::Count => {
+            let n: u64 = text.trim().parse().map_err(|_| {
+                format!(
+                    "`{}` is not a whole number; `{}` takes a count, for example `4`",
+                    text.trim(),
+                    spec.name
+                )
+            })?;
+            range_check(n as f64, Dimension::Dimensionless)?;
+            Ok(Value::Count(n))
+        }
+        InputKind::Choice { options } => {
+            let word = text.trim();
+            if options.iter().any(|o| o == word) {
+                Ok(Value::Choice(word.to_string()))
+            } else {
+                Err(format!(
+                    "`{word}` is not one of the choices for `{}`: {}",
+                    spec.name,
+                    options.join(", ")
+                ))
+            }
+        }
+        InputKind::Flag => match text.trim() {
+            "true" | "yes" => Ok(Value::Flag(true)),
+            "false" | "no" => Ok(Value::Flag(false)),
+            other => Err(format!(
+                "`{other}` is not true or false; `{}` takes `true` or `false`",
+                spec.name
+            )),
+        },
+        InputKind::Material { .. } => Ok(Value::Material(text.trim().to_string())),
+        InputKind::Structured { shape } => Err(format!(
+            "`{}` takes a structured value, not a single value: {shape}",
+            spec.name
+        )),
+    }
+}
+
+impl Inputs {
+    /// Resolves inputs given as text pairs against a declaration, filling
+    /// defaults and default criteria, as the engine would for an item file
+    /// without materials or links. Meant for module tests and examples.
+    pub fn from_text(
+        declaration: &crate::declare::ModuleDeclaration,
+        given: &[(&str, &str)],
+    ) -> Result<Inputs, String> {
+        use crate::declare::Need;
+        let mut inputs = Inputs {
+            item: "TEST".into(),
+            ..Inputs::default()
+        };
+        for (name, _) in given {
+            if declaration.input(name).is_none() && declaration.criterion(name).is_none() {
+                return Err(format!("`{name}` is neither an input nor a criterion"));
+            }
+        }
+        for spec in &declaration.inputs {
+            let text = match given.iter().find(|(n, _)| *n == spec.name) {
+                Some((_, text)) => Some((text.to_string(), false)),
+                None => match &spec.need {
+                    Need::Default(text) => Some((text.clone(), true)),
+                    _ => None,
+                },
+            };
+            if let Some((text, defaulted)) = text {
+                let value = parse_scalar(spec, &text)?;
+                let origin = if defaulted {
+                    Origin::Default
+                } else {
+                    Origin::Item {
+                        span: Span::new("test.yaml", 1, 1),
+                    }
+                };
+                inputs.values.insert(
+                    spec.name.clone(),
+                    ResolvedInput {
+                        value,
+                        origin,
+                        written: text,
+                    },
+                );
+            }
+        }
+        for criterion in &declaration.criteria {
+            let text = given
+                .iter()
+                .find(|(n, _)| *n == criterion.name)
+                .map(|(_, t)| t.to_string())
+                .or_else(|| criterion.default.clone());
+            if let Some(text) = text {
+                let q = crate::units::parse_expecting(&text, criterion.dimension)
+                    .map_err(|e| format!("criterion `{}`: {e}", criterion.name))?;
+                let value = if criterion.dimension == Dimension::Dimensionless {
+                    Value::Number(q.value_si)
+                } else {
+                    Value::Quantity {
+                        value: q.value_si,
+                        dimension: q.dimension,
+                    }
+                };
+                inputs.criteria.insert(criterion.name.clone(), value);
+            }
+        }
+        Ok(inputs)
+    }
+
+    /// Adds a structured input (tests build the tree by hand).
+    pub fn with_structured(mut self, name: &str, node: Node) -> Inputs {
+        let span = node.span.clone();
+        self.values.insert(
+            name.into(),
+            ResolvedInput {
+                value: Value::Structured(node),
+                origin: Origin::Item { span },
+                written: String::new(),
+            },
+        );
+        self
+    }
+}

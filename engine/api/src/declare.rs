@@ -453,12 +453,18 @@ impl ModuleDeclaration {
                     .all(|c| c.is_ascii_lowercase() || c.is_ascii_digit() || c == '_' || c == '-')
         };
         if !is_name(&self.name) {
-            problems.push(format!("module name `{}` is not lower-case words", self.name));
+            problems.push(format!(
+                "module name `{}` is not lower-case words",
+                self.name
+            ));
         }
         let mut seen = std::collections::BTreeSet::new();
         for input in &self.inputs {
             if !seen.insert(input.name.as_str()) || !is_name(&input.name) {
-                problems.push(format!("input `{}` is duplicated or badly named", input.name));
+                problems.push(format!(
+                    "input `{}` is duplicated or badly named",
+                    input.name
+                ));
             }
             if let (Need::Default(text), Some(dimension)) = (&input.need, input.kind.dimension()) {
                 match parse_expecting(text, dimension) {
@@ -476,14 +482,20 @@ impl ModuleDeclaration {
             if let (Need::Default(text), InputKind::Choice { options }) = (&input.need, &input.kind)
             {
                 if !options.contains(text) {
-                    problems.push(format!("default `{text}` of `{}` is not an option", input.name));
+                    problems.push(format!(
+                        "default `{text}` of `{}` is not an option",
+                        input.name
+                    ));
                 }
             }
         }
         let mut seen = std::collections::BTreeSet::new();
         for output in &self.outputs {
             if !seen.insert(output.name.as_str()) || !is_name(&output.name) {
-                problems.push(format!("output `{}` is duplicated or badly named", output.name));
+                problems.push(format!(
+                    "output `{}` is duplicated or badly named",
+                    output.name
+                ));
             }
             for unit in [&output.si_unit, &output.us_unit] {
                 if find_unit(unit).map(|u| u.dimension) != Some(output.dimension) {

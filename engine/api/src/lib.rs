@@ -47,8 +47,8 @@ pub mod quantity;
 pub mod units;
 
 pub use compute::{
-    Axis, CalcError, Check, Inputs, LayerStyle, Measure, Origin, Outcome, Plot, PlotLayer,
-    Relation, ResolvedInput, Series, Status, Value,
+    parse_scalar, Axis, CalcError, Check, Inputs, LayerStyle, Measure, Origin, Outcome, Plot,
+    PlotLayer, Relation, ResolvedInput, Series, Status, Value,
 };
 pub use declare::{
     Bound, CheckSpec, CriterionSpec, InputKind, InputSpec, MethodStep, ModuleDeclaration, Need,

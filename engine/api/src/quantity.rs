@@ -11,11 +11,8 @@ use uom::si::f64 as q;
 /// this dimension, `SurfaceTension`, carries a special kind, so `Force /
 /// Length` would not convert into it; this alias has the ordinary kind, so
 /// `k: Stiffness = E * A / L` compiles.
-pub type ForcePerLength = uom::si::Quantity<
-    uom::si::ISQ<Z0, P1, N2, Z0, Z0, Z0, Z0>,
-    uom::si::SI<f64>,
-    f64,
->;
+pub type ForcePerLength =
+    uom::si::Quantity<uom::si::ISQ<Z0, P1, N2, Z0, Z0, Z0, Z0>, uom::si::SI<f64>, f64>;
 /// Spring stiffness of a rope, chain or structure (N/m).
 pub type Stiffness = ForcePerLength;
 
@@ -112,6 +109,9 @@ mod tests {
         assert_eq!(p.to_si(), 8000.0);
         let k: Stiffness = f / si::<Length>(0.5);
         assert_eq!(k.to_si(), 4000.0);
-        assert_eq!(<Stiffness as SiQuantity>::DIMENSION, Dimension::ForcePerLength);
+        assert_eq!(
+            <Stiffness as SiQuantity>::DIMENSION,
+            Dimension::ForcePerLength
+        );
     }
 }
