@@ -9,7 +9,7 @@ use std::collections::BTreeMap;
 use crate::node::{Node, Span};
 use crate::quantity::SiQuantity;
 use crate::units::Dimension;
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 /// A resolved input value, already checked against the declaration.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -264,7 +264,7 @@ impl Inputs {
 }
 
 /// A number with its dimension, as results and checks carry it.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct Measure {
     /// The SI coherent value.
     pub value: f64,
@@ -291,7 +291,7 @@ impl Measure {
 }
 
 /// Pass or fail.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum Status {
     /// The criterion is met.
@@ -301,7 +301,7 @@ pub enum Status {
 }
 
 /// How a check's value relates to its limit.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum Relation {
     /// Passes when value ≤ limit.
@@ -313,7 +313,7 @@ pub enum Relation {
 }
 
 /// The result of one acceptance check.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Check {
     /// The declared check name.
     pub name: String,
@@ -379,7 +379,7 @@ impl Check {
 
 /// A table of numbers over one independent variable (a time history, a
 /// profile along a chute), columns in SI coherent units.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Series {
     /// The series name in result files.
     pub name: String,
@@ -423,7 +423,7 @@ impl Series {
 }
 
 /// How a plot layer is drawn. The report chooses colours and widths.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum LayerStyle {
     /// A solid line.
@@ -439,7 +439,7 @@ pub enum LayerStyle {
 }
 
 /// One set of points on a plot.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct PlotLayer {
     /// Legend text; layers without one stay out of the legend.
     pub label: Option<String>,
@@ -450,7 +450,7 @@ pub struct PlotLayer {
 }
 
 /// One plot axis.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Axis {
     /// The quantity name ("distance along the belt"); the unit is added by
     /// the report in the project's display units.
@@ -460,7 +460,7 @@ pub struct Axis {
 }
 
 /// A plot a module attaches to its results: data only, drawn by the report.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Plot {
     /// A short id, unique within the item.
     pub id: String,
@@ -516,7 +516,7 @@ impl Axis {
 }
 
 /// Everything a calculation produces.
-#[derive(Debug, Clone, Default, PartialEq)]
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
 pub struct Outcome {
     /// Output values by name.
     pub outputs: BTreeMap<String, Measure>,

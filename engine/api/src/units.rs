@@ -463,7 +463,7 @@ fn split_number(text: &str) -> Result<(f64, &str), QuantityError> {
         .char_indices()
         .map(|(i, c)| i + c.len_utf8())
         .filter(|&i| text[..i].trim().parse::<f64>().is_ok())
-        .last()
+        .next_back()
         .ok_or_else(|| QuantityError::BadNumber(text.to_string()))?;
     let number: f64 = text[..end].trim().parse().expect("prefix parsed above");
     // "1e" followed by a unit like "1 m" is fine; reject "12abc" where the

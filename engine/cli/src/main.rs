@@ -1,2 +1,96 @@
-//! The packwright command line (being built).
-fn main() {}
+//! The `packwright` command line: parses arguments, calls the engine and the
+//! report, prints what happened, and exits with a code that says how it
+//! went (0 done, 1 a calculation error or, with `--strict`, a failed check,
+//! 2 bad input or usage).
+//!
+//! This is the only crate that knows every built-in module (see
+//! `builtin.rs`). Owns no state.
+
+mod builtin;
+mod commands;
+mod newproject;
+mod render;
+
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+use clap::{Parser, Subcommand};
+
+/// Calculation packages for belt conveyor transfers, chain payout and hoists:
+/// a project of YAML files in, units-checked results and a typeset PDF out.
+#[derive(Parser, Debug)]
+#[command(name = "packwright", version, about, long_about = None)]
+pub(crate) struct Cli {
+    /// Print nothing but errors.
+    #[arg(long, short, global = true, conflicts_with = "verbose")]
+    pub(crate) quiet: bool,
+    /// Say what each step does, item by item.
+    #[arg(long, short, global = true)]
+    pub(crate) verbose: bool,
+    /// What to do.
+    #[command(subcommand)]
+    pub(crate) command: Command,
+}
+
+/// The verbs.
+#[derive(Subcommand, Debug)]
+pub(crate) enum Command {
+    /// Make a new project folder with one example item per module.
+    New {
+        /// The folder to create (it must not exist, or be empty).
+        dir: PathBuf,
+    },
+    /// Load and validate the project; report every problem at once.
+    Check {
+        /// The project folder.
+        #[arg(default_value = ".")]
+        dir: PathBuf,
+    },
+    /// Compute every item and write results/.
+    Run {
+        /// The project folder.
+        #[arg(default_value = ".")]
+        dir: PathBuf,
+        /// Exit with code 1 when any check fails.
+        #[arg(long)]
+        strict: bool,
+        /// Ignore the rerun cache and compute every item.
+        #[arg(long)]
+        fresh: bool,
+    },
+    /// Run, then typeset the calculation package to package/<document>-<rev>.pdf.
+    Build {
+        /// The project folder.
+        #[arg(default_value = ".")]
+        dir: PathBuf,
+        /// Exit with code 1 when any check fails.
+        #[arg(long)]
+        strict: bool,
+        /// Ignore the rerun cache and compute every item.
+        #[arg(long)]
+        fresh: bool,
+    },
+    /// List the modules packwright has.
+    Modules,
+    /// Print what a module needs and gives: inputs, outputs, method, references.
+    Explain {
+        /// The module name, as in `module:` of an item.
+        module: String,
+    },
+}
+
+fn main() -> ExitCode {
+    let cli = match Cli::try_parse() {
+        Ok(cli) => cli,
+        Err(e) => {
+            let code = if e.use_stderr() { 2 } else { 0 };
+            let _ = e.print();
+            return ExitCode::from(code);
+        }
+    };
+    let out = commands::Output {
+        quiet: cli.quiet,
+        verbose: cli.verbose,
+    };
+    ExitCode::from(commands::dispatch(cli.command, &out))
+}

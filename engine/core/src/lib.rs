@@ -1,1 +1,135 @@
-//! The packwright engine (being built).
+//! The packwright engine: a project tree in, checked results out.
+//!
+//! The pipeline is a chain of functions, each of the stage before:
+//! [`project::load`] walks and parses the tree (keeping file, line and
+//! column of every value), [`resolve::plan`] validates every item against
+//! its module's declaration and orders the items by their links,
+//! [`run::run`] computes them (independent items in parallel), and
+//! [`results`] writes the deterministic result files. No global state; the
+//! only cache ([`cache`]) is keyed by a digest of everything that can change
+//! a result.
+//!
+//! This crate names no module: modules arrive through a [`Registry`].
+
+pub mod cache;
+pub mod diagnostic;
+pub mod display;
+pub mod fsio;
+pub mod project;
+pub mod registry;
+pub mod resolve;
+pub mod results;
+pub mod run;
+pub mod yaml;
+
+use std::collections::BTreeMap;
+use std::path::Path;
+
+pub use diagnostic::{Diagnostic, Diagnostics};
+pub use project::Project;
+pub use registry::{ModuleOrigin, Registered, Registry};
+pub use resolve::Plan;
+pub use run::{ItemFailure, ItemRun, RunOutcome};
+
+/// Why a command could not finish.
+#[derive(Debug)]
+pub enum EngineError {
+    /// The project has bad input (exit code 2).
+    BadInput(Diagnostics),
+    /// Some items could not be calculated (exit code 1).
+    Calculation(Vec<ItemFailure>, Vec<String>),
+    /// Reading or writing failed.
+    Io(String),
+}
+
+impl std::fmt::Display for EngineError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            EngineError::BadInput(d) => write!(f, "{d}"),
+            EngineError::Calculation(failures, skipped) => {
+                for fail in failures {
+                    writeln!(
+                        f,
+                        "error: {}: item `{}`: {}",
+                        fail.file, fail.item, fail.error
+                    )?;
+                }
+                for s in skipped {
+                    writeln!(
+                        f,
+                        "note: item `{s}` was not calculated because an item it links to failed"
+                    )?;
+                }
+                Ok(())
+            }
+            EngineError::Io(m) => write!(f, "error: {m}"),
+        }
+    }
+}
+
+/// Loads and validates a project: every problem at once.
+pub fn check(root: &Path, registry: &Registry) -> Result<(Project, Plan), EngineError> {
+    let (project, mut problems) = project::load(root).map_err(EngineError::BadInput)?;
+    let plan = resolve::plan(&project, registry);
+    match plan {
+        Ok(plan) if problems.is_empty() => Ok((project, plan)),
+        Ok(_) => {
+            problems.sort();
+            Err(EngineError::BadInput(problems))
+        }
+        Err(more) => {
+            problems.0.extend(more.0);
+            problems.sort();
+            Err(EngineError::BadInput(problems))
+        }
+    }
+}
+
+/// The key outputs of every module, for summaries.
+pub fn key_outputs(registry: &Registry) -> BTreeMap<String, Vec<String>> {
+    registry
+        .iter()
+        .map(|r| {
+            (
+                r.declaration.name.clone(),
+                r.declaration
+                    .outputs
+                    .iter()
+                    .filter(|o| o.key)
+                    .map(|o| o.name.clone())
+                    .collect(),
+            )
+        })
+        .collect()
+}
+
+/// Options of a run.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct RunOptions {
+    /// Ignore the cache: compute every item.
+    pub fresh: bool,
+}
+
+/// Loads, validates and computes a project, then writes `results/` whole.
+/// Nothing is written unless every item was computed.
+pub fn run_project(
+    root: &Path,
+    registry: &Registry,
+    options: RunOptions,
+) -> Result<(Project, RunOutcome), EngineError> {
+    let (project, plan) = check(root, registry)?;
+    let store = cache::Cache::open(&project.root);
+    let outcome = run::run(
+        &plan,
+        registry,
+        if options.fresh { None } else { Some(&store) },
+    );
+    if !outcome.failures.is_empty() || !outcome.skipped.is_empty() {
+        return Err(EngineError::Calculation(outcome.failures, outcome.skipped));
+    }
+    let files = results::result_files(&outcome, &key_outputs(registry));
+    fsio::replace_dir(&project.root.join("results"), &files)
+        .map_err(|e| EngineError::Io(format!("cannot write results/: {e}")))?;
+    store.save(&outcome);
+    Ok((project, outcome))
+}

@@ -1,1 +1,310 @@
-//! placeholder during bootstrap
+//! The calculation package: the run's data through Handlebars templates
+//! into Typst source, typeset in process with the `typst` crate into a PDF
+//! that is the same, byte for byte, every time the same inputs are built.
+//!
+//! Pipeline: [`data::build`] (numbers formatted, plots drawn) ->
+//! [`templates::Templates::render`] (Typst source, user text escaped) ->
+//! [`typeset`] (Typst compile in a sandboxed [`world::PackageWorld`], PDF
+//! export with a pinned identifier, creator and timestamp) ->
+//! [`build_and_write`] (`package/<document>-<rev>.pdf` and `.typ`, replaced
+//! whole). Depends on the engine's data types, names no module.
+
+pub mod data;
+pub mod escape;
+pub mod plot;
+pub mod templates;
+pub mod world;
+
+use std::fmt;
+use std::path::PathBuf;
+use std::time::{Duration, Instant};
+
+use packwright_core::{Project, Registry, RunOutcome};
+use typst::foundations::{Datetime, Smart};
+use typst::WorldExt;
+use typst_layout::PagedDocument;
+
+pub use data::{ChangeRow, Review};
+
+/// Why a package could not be made.
+#[derive(Debug, Clone, PartialEq)]
+pub enum ReportError {
+    /// A template (usually a project's override) is wrong: bad input.
+    Template(templates::TemplateError),
+    /// Typst rejected the generated source.
+    Typst {
+        /// The template the failing part came from.
+        template: String,
+        /// The template's file.
+        file: String,
+        /// The item whose section failed, if any.
+        item: Option<String>,
+        /// Line in the generated `.typ` source.
+        line: usize,
+        /// The generated line.
+        text: String,
+        /// Typst's message and hints.
+        message: String,
+        /// Whether the template was a project override (then it is bad input).
+        overridden: bool,
+    },
+    /// The data cannot make a package (no revision, a plot without points).
+    Data(String),
+    /// Writing failed.
+    Io(String),
+}
+
+impl ReportError {
+    /// The exit code: 2 when a project's own template is at fault.
+    pub fn exit_code(&self) -> u8 {
+        match self {
+            ReportError::Template(_) => 2,
+            ReportError::Typst {
+                overridden: true, ..
+            } => 2,
+            _ => 1,
+        }
+    }
+}
+
+impl fmt::Display for ReportError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            ReportError::Template(e) => match e.line {
+                Some(line) => write!(f, "error: {}:{line}: {}", e.file, e.message),
+                None => write!(f, "error: {}: {}", e.file, e.message),
+            },
+            ReportError::Typst {
+                template,
+                file,
+                item,
+                line,
+                text,
+                message,
+                ..
+            } => {
+                let at = item
+                    .as_deref()
+                    .map(|i| format!(" (section of item `{i}`)"))
+                    .unwrap_or_default();
+                write!(
+                    f,
+                    "error: the Typst made from template `{template}` [{file}]{at} does not typeset: {message}\n  at line {line} of the generated source: {}",
+                    text.trim()
+                )
+            }
+            ReportError::Data(m) | ReportError::Io(m) => write!(f, "error: {m}"),
+        }
+    }
+}
+
+/// Where the time went.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct Timings {
+    /// Package data and plots.
+    pub data: Duration,
+    /// Templates.
+    pub templates: Duration,
+    /// Typst compile (layout).
+    pub compile: Duration,
+    /// PDF export.
+    pub pdf: Duration,
+}
+
+impl fmt::Display for Timings {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(
+            f,
+            "data and plots {:.3} s, templates {:.3} s, Typst compile {:.3} s, PDF write {:.3} s",
+            self.data.as_secs_f64(),
+            self.templates.as_secs_f64(),
+            self.compile.as_secs_f64(),
+            self.pdf.as_secs_f64()
+        )
+    }
+}
+
+/// A typeset package.
+#[derive(Debug, Clone)]
+pub struct Package {
+    /// `<document>-<rev>`, the file stem.
+    pub stem: String,
+    /// The Typst source.
+    pub source: String,
+    /// The PDF bytes.
+    pub pdf: Vec<u8>,
+    /// Page count.
+    pub pages: usize,
+    /// Where the time went.
+    pub timings: Timings,
+}
+
+/// What was written.
+#[derive(Debug, Clone)]
+pub struct Written {
+    /// The PDF's path.
+    pub pdf_path: PathBuf,
+    /// Page count.
+    pub pages: usize,
+    /// Where the time went.
+    pub timings: Timings,
+}
+
+fn date_of(text: &str) -> Option<Datetime> {
+    let y = text.get(0..4)?.parse().ok()?;
+    let m = text.get(5..7)?.parse().ok()?;
+    let d = text.get(8..10)?.parse().ok()?;
+    Datetime::from_ymd(y, m, d)
+}
+
+/// Typesets a Typst source (with in-memory plot files) into a PDF.
+pub fn typeset(
+    source: String,
+    files: Vec<(String, Vec<u8>)>,
+    project: &Project,
+    segments: &[templates::Segment],
+) -> Result<(Vec<u8>, usize, Duration, Duration), ReportError> {
+    let rev = project
+        .meta
+        .current_revision()
+        .ok_or_else(|| ReportError::Data("no revision".into()))?;
+    let today = date_of(&rev.date)
+        .ok_or_else(|| ReportError::Data(format!("`{}` is not a date", rev.date)))?;
+    let world = world::PackageWorld::new(source, files, Some(&project.root.join("package")), today)
+        .map_err(ReportError::Data)?;
+    let started = Instant::now();
+    let compiled = typst::compile::<PagedDocument>(&world);
+    let compile_time = started.elapsed();
+    let document = compiled
+        .output
+        .map_err(|errors| typst_error(&world, &errors, segments))?;
+    let started = Instant::now();
+    let timestamp = Datetime::from_ymd_hms(
+        today.year().unwrap_or(2000),
+        today.month().unwrap_or(1),
+        today.day().unwrap_or(1),
+        0,
+        0,
+        0,
+    )
+    .map(typst_pdf::Timestamp::new_utc);
+    let options = typst_pdf::PdfOptions {
+        ident: Smart::Custom(format!("{}-{}", project.meta.document, rev.rev)),
+        creator: Smart::Custom(Some(format!(
+            "packwright {}",
+            packwright_core::run::TOOL_VERSION
+        ))),
+        timestamp,
+        ..Default::default()
+    };
+    let pdf = typst_pdf::pdf(&document, &options)
+        .map_err(|errors| typst_error(&world, &errors, segments))?;
+    Ok((pdf, document.pages().len(), compile_time, started.elapsed()))
+}
+
+fn typst_error(
+    world: &world::PackageWorld,
+    errors: &[typst::diag::SourceDiagnostic],
+    segments: &[templates::Segment],
+) -> ReportError {
+    let first = errors.first();
+    let message = first
+        .map(|e| {
+            let mut m = e.message.to_string();
+            for hint in &e.hints {
+                m.push_str(&format!("; hint: {}", hint.v));
+            }
+            m
+        })
+        .unwrap_or_else(|| "unknown Typst error".into());
+    let source = world.main_source();
+    let line = first
+        .and_then(|e| world.range(e.span))
+        .and_then(|r| source.lines().byte_to_line(r.start))
+        .map(|l| l + 1)
+        .unwrap_or(1);
+    let text = source
+        .text()
+        .lines()
+        .nth(line - 1)
+        .unwrap_or("")
+        .to_string();
+    let segment = segments.iter().rev().find(|s| s.first_line <= line);
+    ReportError::Typst {
+        template: segment.map(|s| s.template.clone()).unwrap_or_default(),
+        file: segment.map(|s| s.file.clone()).unwrap_or_default(),
+        item: segment.and_then(|s| s.item.clone()),
+        line,
+        text,
+        message,
+        overridden: segment.is_some_and(|s| s.file != "(built in)"),
+    }
+}
+
+/// Makes the package of a run (nothing written).
+pub fn make(
+    project: &Project,
+    outcome: &RunOutcome,
+    registry: &Registry,
+    review: &Review,
+) -> Result<Package, ReportError> {
+    let mut timings = Timings::default();
+    let started = Instant::now();
+    let templates = templates::Templates::load(Some(&project.root.join("templates")))
+        .map_err(ReportError::Template)?;
+    let (data, plots) =
+        data::build(project, outcome, registry, review).map_err(ReportError::Data)?;
+    timings.data = started.elapsed();
+    let started = Instant::now();
+    let (source, segments) = templates.render(&data).map_err(ReportError::Template)?;
+    timings.templates = started.elapsed();
+    let (pdf, pages, compile, pdf_time) = typeset(source.clone(), plots, project, &segments)?;
+    timings.compile = compile;
+    timings.pdf = pdf_time;
+    let rev = project
+        .meta
+        .current_revision()
+        .map(|r| r.rev.clone())
+        .unwrap_or_default();
+    Ok(Package {
+        stem: format!("{}-{}", project.meta.document, rev),
+        source,
+        pdf,
+        pages,
+        timings,
+    })
+}
+
+/// Makes the package and replaces `package/` with its PDF and Typst source.
+pub fn build_and_write(
+    project: &Project,
+    outcome: &RunOutcome,
+    registry: &Registry,
+    review: &Review,
+) -> Result<Written, ReportError> {
+    let package = make(project, outcome, registry, review)?;
+    let dir = project.root.join("package");
+    // Images a project keeps in package/ for its templates stay.
+    let mut files = Vec::new();
+    if let Ok(entries) = std::fs::read_dir(&dir) {
+        for entry in entries.flatten() {
+            let name = entry.file_name().to_string_lossy().into_owned();
+            let keep =
+                !(name.ends_with(".pdf") || name.ends_with(".typ")) && entry.path().is_file();
+            if keep {
+                if let Ok(bytes) = std::fs::read(entry.path()) {
+                    files.push((name, bytes));
+                }
+            }
+        }
+    }
+    files.push((format!("{}.typ", package.stem), package.source.into_bytes()));
+    files.push((format!("{}.pdf", package.stem), package.pdf));
+    packwright_core::fsio::replace_dir(&dir, &files)
+        .map_err(|e| ReportError::Io(format!("cannot write package/: {e}")))?;
+    Ok(Written {
+        pdf_path: dir.join(format!("{}.pdf", package.stem)),
+        pages: package.pages,
+        timings: package.timings,
+    })
+}

@@ -1,0 +1,150 @@
+//! Writing to disk so that nothing already there is lost or half-written.
+//!
+//! A folder the tool owns (`results/`, `package/`) is written whole into a
+//! hidden sibling and then swapped in with one atomic `renameat2` exchange;
+//! a single file (`issued/B.yaml`) is written beside its target and renamed
+//! over it. A crash at any moment leaves the complete old or the complete new
+//! version. Owns no state; leftovers of a crash are hidden and removed by
+//! the next write.
+
+use std::fs;
+use std::io::{self, Write};
+use std::path::{Path, PathBuf};
+
+fn hidden_sibling(target: &Path, tag: &str) -> io::Result<PathBuf> {
+    let name = target
+        .file_name()
+        .ok_or_else(|| io::Error::new(io::ErrorKind::InvalidInput, "target has no name"))?
+        .to_string_lossy()
+        .into_owned();
+    let parent = target.parent().unwrap_or_else(|| Path::new("."));
+    Ok(parent.join(format!(".{name}.{tag}-{}", std::process::id())))
+}
+
+/// Removes leftovers of earlier interrupted writes of `target`.
+fn clean_leftovers(target: &Path) {
+    let (Some(parent), Some(name)) = (target.parent(), target.file_name()) else {
+        return;
+    };
+    let prefix = format!(".{}.", name.to_string_lossy());
+    if let Ok(entries) = fs::read_dir(parent) {
+        for entry in entries.flatten() {
+            let n = entry.file_name().to_string_lossy().into_owned();
+            if n.starts_with(&prefix) && (n.contains(".new-") || n.contains(".old-")) {
+                let p = entry.path();
+                let _ = if p.is_dir() {
+                    fs::remove_dir_all(&p)
+                } else {
+                    fs::remove_file(&p)
+                };
+            }
+        }
+    }
+}
+
+fn sync_dir(dir: &Path) -> io::Result<()> {
+    fs::File::open(dir)?.sync_all()
+}
+
+/// Writes a file's bytes and flushes them to disk.
+fn write_synced(path: &Path, bytes: &[u8]) -> io::Result<()> {
+    let mut f = fs::File::create(path)?;
+    f.write_all(bytes)?;
+    f.sync_all()
+}
+
+/// Replaces the folder `target` with one holding exactly `files` (relative
+/// names and contents), atomically.
+pub fn replace_dir(target: &Path, files: &[(String, Vec<u8>)]) -> io::Result<()> {
+    clean_leftovers(target);
+    let staging = hidden_sibling(target, "new")?;
+    fs::create_dir_all(&staging)?;
+    for (name, bytes) in files {
+        let path = staging.join(name);
+        if let Some(p) = path.parent() {
+            fs::create_dir_all(p)?;
+        }
+        write_synced(&path, bytes)?;
+    }
+    sync_dir(&staging)?;
+    if target.exists() {
+        // One system call swaps the two folders: there is no moment with
+        // neither, nor with a mix of both.
+        rustix::fs::renameat_with(
+            rustix::fs::CWD,
+            &staging,
+            rustix::fs::CWD,
+            target,
+            rustix::fs::RenameFlags::EXCHANGE,
+        )
+        .map_err(io::Error::from)?;
+        fs::remove_dir_all(&staging)?;
+    } else {
+        fs::rename(&staging, target)?;
+    }
+    if let Some(parent) = target.parent() {
+        sync_dir(parent)?;
+    }
+    Ok(())
+}
+
+/// Writes one file atomically: the new content goes to a hidden sibling
+/// and is renamed over the target.
+pub fn write_file(target: &Path, bytes: &[u8]) -> io::Result<()> {
+    if let Some(parent) = target.parent() {
+        fs::create_dir_all(parent)?;
+    }
+    clean_leftovers(target);
+    let staging = hidden_sibling(target, "new")?;
+    write_synced(&staging, bytes)?;
+    fs::rename(&staging, target)?;
+    if let Some(parent) = target.parent() {
+        sync_dir(parent)?;
+    }
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn replaces_a_folder_whole() {
+        let dir = tempfile::tempdir().unwrap();
+        let target = dir.path().join("results");
+        replace_dir(
+            &target,
+            &[
+                ("a.yaml".into(), b"1".to_vec()),
+                ("b.yaml".into(), b"2".to_vec()),
+            ],
+        )
+        .unwrap();
+        replace_dir(&target, &[("a.yaml".into(), b"3".to_vec())]).unwrap();
+        assert_eq!(fs::read(target.join("a.yaml")).unwrap(), b"3");
+        assert!(
+            !target.join("b.yaml").exists(),
+            "stale files go with the old folder"
+        );
+        let names: Vec<_> = fs::read_dir(dir.path())
+            .unwrap()
+            .flatten()
+            .map(|e| e.file_name())
+            .collect();
+        assert_eq!(
+            names.len(),
+            1,
+            "no staging folder is left behind: {names:?}"
+        );
+    }
+
+    #[test]
+    fn writes_a_file_whole() {
+        let dir = tempfile::tempdir().unwrap();
+        let target = dir.path().join("issued").join("A.yaml");
+        write_file(&target, b"old").unwrap();
+        write_file(&target, b"new").unwrap();
+        assert_eq!(fs::read(&target).unwrap(), b"new");
+        assert_eq!(fs::read_dir(target.parent().unwrap()).unwrap().count(), 1);
+    }
+}

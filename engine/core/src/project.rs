@@ -1,0 +1,723 @@
+//! Loading a project tree: `project.yaml`, the materials under `materials/`
+//! and the calculation items in every other YAML file.
+//!
+//! Raw YAML becomes a validated model here (the item's own keys are
+//! checked; its inputs are checked against the module in `resolve`).
+//! Owns no state: a [`Project`] is a value built from the files.
+
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+use std::sync::Arc;
+
+use packwright_api::{Node, NodeValue, Span, UnitSystem};
+use walkdir::WalkDir;
+
+use crate::diagnostic::{Diagnostic, Diagnostics};
+use crate::yaml;
+
+/// Folders the tool writes, never read as items.
+pub const WRITTEN_FOLDERS: [&str; 3] = ["results", "package", "issued"];
+
+/// Folders with other content than items (templates and external modules).
+pub const OTHER_FOLDERS: [&str; 2] = ["templates", "modules"];
+
+/// A signature on a revision: who, and when.
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+pub struct Signature {
+    /// The person's name as they sign.
+    pub name: String,
+    /// The date, `YYYY-MM-DD`.
+    pub date: String,
+}
+
+/// One revision of the calculation package.
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+pub struct Revision {
+    /// The revision mark (`A`, `B`, `0`, `1`...).
+    pub rev: String,
+    /// The revision date, `YYYY-MM-DD`.
+    pub date: String,
+    /// What changed.
+    pub description: String,
+    /// Prepared by.
+    pub prepared: Option<Signature>,
+    /// Checked by.
+    pub checked: Option<Signature>,
+    /// Approved by.
+    pub approved: Option<Signature>,
+}
+
+/// The contents of `project.yaml`.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct ProjectMeta {
+    /// The project's name.
+    pub project: String,
+    /// The document number of the calculation package.
+    pub document: String,
+    /// The package title.
+    pub title: String,
+    /// The client.
+    pub client: String,
+    /// Display units.
+    pub units: UnitSystem,
+    /// Revisions, oldest first.
+    pub revisions: Vec<Revision>,
+    /// External module manifests named in project.yaml, relative to the root.
+    pub modules: Vec<String>,
+}
+
+impl ProjectMeta {
+    /// The newest revision.
+    pub fn current_revision(&self) -> Option<&Revision> {
+        self.revisions.last()
+    }
+}
+
+/// A named bulk material or chain.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Material {
+    /// The id items refer to.
+    pub id: String,
+    /// `bulk` or `chain`.
+    pub kind: String,
+    /// The descriptive name.
+    pub name: String,
+    /// Properties, keyed like module inputs, each with its node.
+    pub properties: Vec<(String, Node)>,
+    /// Free text.
+    pub notes: Option<String>,
+    /// Where the `id:` stands.
+    pub span: Span,
+}
+
+/// A calculation item as written in its file.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ItemFile {
+    /// Unique id.
+    pub id: String,
+    /// Where the id stands.
+    pub id_span: Span,
+    /// The module name.
+    pub module: String,
+    /// Where the module name stands.
+    pub module_span: Span,
+    /// The title.
+    pub title: String,
+    /// Inputs as written: key node and value node.
+    pub inputs: Vec<(Node, Node)>,
+    /// Where `inputs:` stands (or the file start).
+    pub inputs_span: Span,
+    /// Criteria overrides as written.
+    pub criteria: Vec<(Node, Node)>,
+    /// Free text for the package.
+    pub notes: Option<String>,
+    /// The file, relative to the root.
+    pub file: Arc<str>,
+}
+
+/// A loaded project.
+#[derive(Debug, Clone)]
+pub struct Project {
+    /// The project root on disk.
+    pub root: PathBuf,
+    /// `project.yaml`.
+    pub meta: ProjectMeta,
+    /// Materials by id.
+    pub materials: BTreeMap<String, Material>,
+    /// Items, sorted by id.
+    pub items: Vec<ItemFile>,
+    /// The text of every file read, by relative path, for messages.
+    pub sources: BTreeMap<Arc<str>, String>,
+}
+
+fn text_of(node: &Node) -> Option<String> {
+    match &node.value {
+        NodeValue::Text(s) => Some(s.clone()),
+        NodeValue::Number(x) => Some(format!("{x}")),
+        _ => None,
+    }
+}
+
+/// A mapping's entries by key, refusing keys outside `allowed`.
+struct Fields<'a> {
+    node: &'a Node,
+    what: &'a str,
+}
+
+impl<'a> Fields<'a> {
+    fn new(node: &'a Node, what: &'a str, allowed: &[&str], out: &mut Diagnostics) -> Option<Self> {
+        let Some(entries) = node.as_map() else {
+            out.push(
+                Diagnostic::new(
+                    Some(node.span.clone()),
+                    format!(
+                        "{what} should be a mapping of `key: value`, not {}",
+                        node.kind_name()
+                    ),
+                )
+                .expected(format!("keys such as {}", allowed.join(", "))),
+            );
+            return None;
+        };
+        for (key, _) in entries {
+            let k = key.as_text().unwrap_or_default();
+            if !allowed.contains(&k) {
+                let mut d = Diagnostic::new(
+                    Some(key.span.clone()),
+                    format!("unknown key `{k}` in {what}"),
+                )
+                .expected(format!("one of: {}", allowed.join(", ")));
+                if let Some(best) = did_you_mean(k, allowed.iter().copied()) {
+                    d.message.push_str(&format!(" (did you mean `{best}`?)"));
+                }
+                out.push(d);
+            }
+        }
+        Some(Fields { node, what })
+    }
+
+    fn get(&self, key: &str) -> Option<&'a Node> {
+        self.node.get(key).filter(|n| n.value != NodeValue::Null)
+    }
+
+    fn text(
+        &self,
+        key: &str,
+        required: bool,
+        example: &str,
+        out: &mut Diagnostics,
+    ) -> Option<String> {
+        match self.get(key) {
+            Some(n) => match text_of(n) {
+                Some(s) => Some(s),
+                None => {
+                    out.push(
+                        Diagnostic::new(
+                            Some(n.span.clone()),
+                            format!(
+                                "`{key}` in {} should be text, not {}",
+                                self.what,
+                                n.kind_name()
+                            ),
+                        )
+                        .expected(format!("`{key}: {example}`")),
+                    );
+                    None
+                }
+            },
+            None if required => {
+                out.push(
+                    Diagnostic::new(
+                        Some(self.node.span.clone()),
+                        format!("{} has no `{key}`", self.what),
+                    )
+                    .expected(format!("`{key}: {example}`")),
+                );
+                None
+            }
+            None => None,
+        }
+    }
+
+    fn entries(&self, key: &str, out: &mut Diagnostics) -> Vec<(Node, Node)> {
+        match self.get(key) {
+            None => Vec::new(),
+            Some(n) => match n.as_map() {
+                Some(entries) => entries.to_vec(),
+                None => {
+                    out.push(
+                        Diagnostic::new(
+                            Some(n.span.clone()),
+                            format!("`{key}` should be a mapping, not {}", n.kind_name()),
+                        )
+                        .expected(format!("`{key}:` followed by indented `name: value` lines")),
+                    );
+                    Vec::new()
+                }
+            },
+        }
+    }
+}
+
+/// The closest of `candidates` to `word`, when it is close enough to be a typo.
+pub fn did_you_mean<'a>(word: &str, candidates: impl Iterator<Item = &'a str>) -> Option<&'a str> {
+    candidates
+        .map(|c| (strsim::jaro_winkler(word, c), c))
+        .filter(|(score, _)| *score > 0.8)
+        .max_by(|a, b| a.0.total_cmp(&b.0))
+        .map(|(_, c)| c)
+}
+
+/// Whether `id` is a valid item or material id: letters, digits, `-`, `_`,
+/// starting with a letter or digit. A dot would clash with `ITEM.OUTPUT`.
+pub fn valid_id(id: &str) -> bool {
+    let mut chars = id.chars();
+    chars.next().is_some_and(|c| c.is_ascii_alphanumeric())
+        && chars.all(|c| c.is_ascii_alphanumeric() || c == '-' || c == '_')
+        && id.len() <= 64
+}
+
+fn valid_date(s: &str) -> bool {
+    let b = s.as_bytes();
+    b.len() == 10
+        && b[4] == b'-'
+        && b[7] == b'-'
+        && s[..4].parse::<u32>().is_ok()
+        && s[5..7].parse::<u32>().is_ok_and(|m| (1..=12).contains(&m))
+        && s[8..].parse::<u32>().is_ok_and(|d| (1..=31).contains(&d))
+}
+
+/// Reads a file inside the project, refusing files that leave the tree.
+fn read_inside(root: &Path, path: &Path, rel: &Arc<str>) -> Result<Vec<u8>, Diagnostic> {
+    let here = Some(Span::new(rel.clone(), 1, 1));
+    let real = path.canonicalize().map_err(|e| {
+        Diagnostic::new(here.clone(), format!("cannot open the file: {e}")).expected(
+            "a readable file inside the project folder (a link that leads nowhere is not)",
+        )
+    })?;
+    if !real.starts_with(root) {
+        return Err(Diagnostic::new(
+            here,
+            format!(
+                "this file is a link to {}, outside the project folder",
+                real.display()
+            ),
+        )
+        .expected(
+            "project files inside the project folder; copy the file in instead of linking it",
+        ));
+    }
+    std::fs::read(&real).map_err(|e| Diagnostic::new(here, format!("cannot read the file: {e}")))
+}
+
+fn relative(root: &Path, path: &Path) -> Arc<str> {
+    let rel = path.strip_prefix(root).unwrap_or(path);
+    let parts: Vec<String> = rel
+        .components()
+        .map(|c| c.as_os_str().to_string_lossy().into_owned())
+        .collect();
+    Arc::from(parts.join("/"))
+}
+
+/// Loads the project at `root`. Returns the project with every well-formed
+/// part, and every problem found; the caller decides whether to go on.
+pub fn load(root: &Path) -> Result<(Project, Diagnostics), Diagnostics> {
+    let mut out = Diagnostics::default();
+    let root = root.canonicalize().map_err(|e| {
+        Diagnostics(vec![Diagnostic::new(
+            None,
+            format!("cannot open the project folder {}: {e}", root.display()),
+        )
+        .expected("the path of a folder that holds a project.yaml")])
+    })?;
+    let mut sources = BTreeMap::new();
+    let meta_path = root.join("project.yaml");
+    let meta_rel: Arc<str> = Arc::from("project.yaml");
+    if !meta_path.is_file() {
+        return Err(Diagnostics(vec![Diagnostic::new(
+            None,
+            format!("{} has no project.yaml", root.display()),
+        )
+        .expected(
+            "a project folder made with `packwright new DIR`, or one holding a project.yaml",
+        )]));
+    }
+    let meta = read_inside(&root, &meta_path, &meta_rel)
+        .and_then(|bytes| {
+            sources.insert(
+                meta_rel.clone(),
+                String::from_utf8_lossy(&bytes).into_owned(),
+            );
+            yaml::parse_bytes(&meta_rel, &bytes)
+        })
+        .map_err(|d| Diagnostics(vec![d]))?;
+    let meta = match meta {
+        Some(node) => parse_meta(&node, &mut out),
+        None => {
+            out.push(
+                Diagnostic::new(
+                    Some(Span::new(meta_rel, 1, 1)),
+                    "project.yaml is empty".into(),
+                )
+                .expected(
+                    "`project:`, `document:`, `title:`, `client:`, `units: si` and `revisions:`",
+                ),
+            );
+            None
+        }
+    };
+    let Some(meta) = meta else {
+        return Err(out);
+    };
+
+    let mut materials = BTreeMap::new();
+    let mut items: Vec<ItemFile> = Vec::new();
+    let walker = WalkDir::new(&root)
+        .follow_links(false)
+        .sort_by_file_name()
+        .into_iter()
+        .filter_entry(|e| {
+            let name = e.file_name().to_string_lossy();
+            if e.depth() == 0 {
+                return true;
+            }
+            if name.starts_with('.') {
+                return false;
+            }
+            !(e.depth() == 1
+                && e.file_type().is_dir()
+                && (WRITTEN_FOLDERS.contains(&name.as_ref())
+                    || OTHER_FOLDERS.contains(&name.as_ref())))
+        });
+    for entry in walker {
+        let entry = match entry {
+            Ok(e) => e,
+            Err(e) => {
+                let rel = e
+                    .path()
+                    .map(|p| relative(&root, p))
+                    .unwrap_or_else(|| Arc::from("?"));
+                out.push(Diagnostic::new(
+                    Some(Span::new(rel, 1, 1)),
+                    format!("cannot read this part of the project tree: {e}"),
+                ));
+                continue;
+            }
+        };
+        let path = entry.path();
+        let ext = path.extension().and_then(|e| e.to_str()).unwrap_or("");
+        if !(ext == "yaml" || ext == "yml") || entry.file_type().is_dir() || entry.depth() == 0 {
+            continue;
+        }
+        let rel = relative(&root, path);
+        if &*rel == "project.yaml" {
+            continue;
+        }
+        if entry.path_is_symlink() && path.is_dir() {
+            continue;
+        }
+        let node = match read_inside(&root, path, &rel).and_then(|bytes| {
+            sources.insert(rel.clone(), String::from_utf8_lossy(&bytes).into_owned());
+            yaml::parse_bytes(&rel, &bytes)
+        }) {
+            Ok(Some(node)) => node,
+            Ok(None) => {
+                out.push(
+                    Diagnostic::new(Some(Span::new(rel, 1, 1)), "the file is empty".into()).expected(
+                        "an item (`id:`, `module:`, `title:`, `inputs:`) or a material; delete the file if it is not needed",
+                    ),
+                );
+                continue;
+            }
+            Err(d) => {
+                out.push(d);
+                continue;
+            }
+        };
+        if rel.starts_with("materials/") {
+            if let Some(m) = parse_material(&node, &mut out) {
+                if let Some(prev) = materials.get(&m.id) {
+                    let prev: &Material = prev;
+                    out.push(
+                        Diagnostic::new(
+                            Some(m.span.clone()),
+                            format!("material id `{}` is used twice", m.id),
+                        )
+                        .related(prev.span.clone(), "the other material with this id")
+                        .expected("a unique id for each material"),
+                    );
+                } else {
+                    materials.insert(m.id.clone(), m);
+                }
+            }
+        } else if let Some(item) = parse_item(&node, rel.clone(), &mut out) {
+            if let Some(prev) = items.iter().find(|i| i.id == item.id) {
+                out.push(
+                    Diagnostic::new(
+                        Some(item.id_span.clone()),
+                        format!("item id `{}` is used twice", item.id),
+                    )
+                    .related(prev.id_span.clone(), "the other item with this id")
+                    .expected("a unique id for each item, such as `CV-101-LOAD`"),
+                );
+            } else {
+                items.push(item);
+            }
+        }
+    }
+    items.sort_by(|a, b| a.id.cmp(&b.id));
+    Ok((
+        Project {
+            root,
+            meta,
+            materials,
+            items,
+            sources,
+        },
+        out,
+    ))
+}
+
+fn parse_signature(node: Option<&Node>, role: &str, out: &mut Diagnostics) -> Option<Signature> {
+    let node = node.filter(|n| n.value != NodeValue::Null)?;
+    let what = format!("the `{role}` signature");
+    let f = Fields::new(node, &what, &["name", "date"], out)?;
+    let name = f.text("name", true, "A. Person", out)?;
+    let date = f.text("date", true, "2026-10-14", out)?;
+    if !valid_date(&date) {
+        out.push(
+            Diagnostic::new(
+                f.get("date").map(|n| n.span.clone()),
+                format!("`{date}` is not a date"),
+            )
+            .expected("a date written YYYY-MM-DD, such as 2026-10-14"),
+        );
+        return None;
+    }
+    Some(Signature { name, date })
+}
+
+fn parse_meta(node: &Node, out: &mut Diagnostics) -> Option<ProjectMeta> {
+    let f = Fields::new(
+        node,
+        "project.yaml",
+        &[
+            "project",
+            "document",
+            "title",
+            "client",
+            "units",
+            "revisions",
+            "modules",
+        ],
+        out,
+    )?;
+    let before = out.0.len();
+    let project = f.text("project", true, "Harrow Creek Ore Terminal", out);
+    let document = f.text("document", true, "HCT-MH-CALC-0042", out);
+    let title = f.text("title", true, "Conveyor loading calculations", out);
+    let client = f
+        .text("client", false, "Tallis Ridge Minerals", out)
+        .unwrap_or_default();
+    let units = match f.text("units", false, "si", out).as_deref() {
+        None | Some("si") | Some("SI") => UnitSystem::Si,
+        Some("us") | Some("US") => UnitSystem::Us,
+        Some(other) => {
+            out.push(
+                Diagnostic::new(
+                    f.get("units").map(|n| n.span.clone()),
+                    format!("`{other}` is not a unit system"),
+                )
+                .expected("`units: si` or `units: us` (US customary)"),
+            );
+            UnitSystem::Si
+        }
+    };
+    if let Some(doc) = &document {
+        if !doc
+            .chars()
+            .all(|c| c.is_ascii_alphanumeric() || matches!(c, '-' | '_' | '.'))
+        {
+            out.push(
+                Diagnostic::new(
+                    f.get("document").map(|n| n.span.clone()),
+                    format!(
+                        "document number `{doc}` has characters that cannot stand in a file name"
+                    ),
+                )
+                .expected("letters, digits, `-`, `_` and `.`, such as HCT-MH-CALC-0042"),
+            );
+        }
+    }
+    let mut revisions = Vec::new();
+    match f.get("revisions") {
+        None => out.push(
+            Diagnostic::new(
+                Some(node.span.clone()),
+                "project.yaml has no `revisions:`".into(),
+            )
+            .expected("`revisions:` with at least `- rev: A` and `date: 2026-10-14`"),
+        ),
+        Some(list) => match list.as_list() {
+            Some(entries) if !entries.is_empty() => {
+                for entry in entries {
+                    let Some(rf) = Fields::new(
+                        entry,
+                        "a revision",
+                        &[
+                            "rev",
+                            "date",
+                            "description",
+                            "prepared",
+                            "checked",
+                            "approved",
+                        ],
+                        out,
+                    ) else {
+                        continue;
+                    };
+                    let rev = rf.text("rev", true, "A", out);
+                    let date = rf.text("date", true, "2026-10-14", out);
+                    if let Some(d) = &date {
+                        if !valid_date(d) {
+                            out.push(
+                                Diagnostic::new(
+                                    rf.get("date").map(|n| n.span.clone()),
+                                    format!("`{d}` is not a date"),
+                                )
+                                .expected("a date written YYYY-MM-DD, such as 2026-10-14"),
+                            );
+                        }
+                    }
+                    let description = rf.text("description", false, "Issued for check", out);
+                    let prepared = parse_signature(rf.get("prepared"), "prepared", out);
+                    let checked = parse_signature(rf.get("checked"), "checked", out);
+                    let approved = parse_signature(rf.get("approved"), "approved", out);
+                    if let (Some(rev), Some(date)) = (rev, date) {
+                        if revisions.iter().any(|r: &Revision| r.rev == rev) {
+                            out.push(
+                                Diagnostic::new(
+                                    rf.get("rev").map(|n| n.span.clone()),
+                                    format!("revision `{rev}` is listed twice"),
+                                )
+                                .expected("each revision once, oldest first"),
+                            );
+                        }
+                        revisions.push(Revision {
+                            rev,
+                            date,
+                            description: description.unwrap_or_default(),
+                            prepared,
+                            checked,
+                            approved,
+                        });
+                    }
+                }
+            }
+            _ => out.push(
+                Diagnostic::new(
+                    Some(list.span.clone()),
+                    "`revisions` should be a list with at least one revision".into(),
+                )
+                .expected("`- rev: A` then `date: 2026-10-14`, indented under `revisions:`"),
+            ),
+        },
+    }
+    let modules = match f.get("modules") {
+        None => Vec::new(),
+        Some(list) => match list.as_list() {
+            Some(entries) => entries.iter().filter_map(text_of).collect(),
+            None => {
+                out.push(
+                    Diagnostic::new(Some(list.span.clone()), "`modules` should be a list".into())
+                        .expected("`modules: [tools/seal-drag/module.yaml]`"),
+                );
+                Vec::new()
+            }
+        },
+    };
+    if out.0.len() > before {
+        return None;
+    }
+    Some(ProjectMeta {
+        project: project?,
+        document: document?,
+        title: title?,
+        client,
+        units,
+        revisions,
+        modules,
+    })
+}
+
+fn check_id(id: &str, node: Option<&Node>, what: &str, out: &mut Diagnostics) -> bool {
+    if valid_id(id) {
+        return true;
+    }
+    out.push(
+        Diagnostic::new(
+            node.map(|n| n.span.clone()),
+            format!("`{id}` is not a valid {what} id"),
+        )
+        .expected("letters, digits, `-` and `_`, at most 64 characters, such as `CV-101-LOAD`"),
+    );
+    false
+}
+
+fn parse_material(node: &Node, out: &mut Diagnostics) -> Option<Material> {
+    let f = Fields::new(
+        node,
+        "a material",
+        &["id", "kind", "name", "properties", "notes"],
+        out,
+    )?;
+    let id = f.text("id", true, "iron-ore-fines", out)?;
+    if !check_id(&id, f.get("id"), "material", out) {
+        return None;
+    }
+    let kind = f.text("kind", true, "bulk", out)?;
+    if !["bulk", "chain"].contains(&kind.as_str()) {
+        out.push(
+            Diagnostic::new(
+                f.get("kind").map(|n| n.span.clone()),
+                format!("`{kind}` is not a material kind"),
+            )
+            .expected("`kind: bulk` or `kind: chain`"),
+        );
+        return None;
+    }
+    let name = f
+        .text("name", false, "Hematite fines", out)
+        .unwrap_or_else(|| id.clone());
+    let properties = f
+        .entries("properties", out)
+        .into_iter()
+        .filter_map(|(k, v)| k.as_text().map(|k| (k.to_string(), v)))
+        .collect();
+    let notes = f.text("notes", false, "text", out);
+    Some(Material {
+        span: f
+            .get("id")
+            .map(|n| n.span.clone())
+            .unwrap_or_else(|| node.span.clone()),
+        id,
+        kind,
+        name,
+        properties,
+        notes,
+    })
+}
+
+fn parse_item(node: &Node, file: Arc<str>, out: &mut Diagnostics) -> Option<ItemFile> {
+    let f = Fields::new(
+        node,
+        "an item",
+        &["id", "module", "title", "inputs", "criteria", "notes"],
+        out,
+    )?;
+    let id = f.text("id", true, "CV-101-LOAD", out);
+    let module = f.text("module", true, "belt-pickup", out);
+    let title = f.text("title", false, "CV-101 loading point", out);
+    let inputs = f.entries("inputs", out);
+    let criteria = f.entries("criteria", out);
+    let notes = f.text("notes", false, "free text", out);
+    let id = id?;
+    if !check_id(&id, f.get("id"), "item", out) {
+        return None;
+    }
+    Some(ItemFile {
+        id_span: f.get("id")?.span.clone(),
+        module_span: f.get("module")?.span.clone(),
+        module: module?,
+        title: title.unwrap_or_else(|| id.clone()),
+        id,
+        inputs_span: f
+            .get("inputs")
+            .map(|n| n.span.clone())
+            .unwrap_or_else(|| node.span.clone()),
+        inputs,
+        criteria,
+        notes,
+        file,
+    })
+}

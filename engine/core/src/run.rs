@@ -1,0 +1,329 @@
+//! Running a plan: links filled from the items they come from, each item
+//! computed by its module (independent items in parallel), every outcome
+//! checked against the module's declaration, and each item's resolved
+//! inputs digested.
+//!
+//! Owns no state; results come back as values.
+
+use std::collections::BTreeMap;
+use std::sync::Mutex;
+
+use packwright_api::{
+    CalcError, Dimension, Inputs, Measure, Module, ModuleDeclaration, Origin, Outcome,
+    ResolvedInput, Value,
+};
+use rayon::prelude::*;
+use sha2::{Digest, Sha256};
+
+use crate::registry::Registry;
+use crate::resolve::{Plan, PlannedItem};
+
+/// One computed item.
+#[derive(Debug, Clone)]
+pub struct ItemRun {
+    /// The plan entry.
+    pub item: PlannedItem,
+    /// The inputs with links filled.
+    pub inputs: Inputs,
+    /// The module version that ran.
+    pub module_version: String,
+    /// Digest of the resolved inputs, module and tool version.
+    pub inputs_digest: String,
+    /// What the module produced.
+    pub outcome: Outcome,
+    /// Whether the outcome came from the cache rather than a computation.
+    pub from_cache: bool,
+}
+
+/// Why an item produced no results.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ItemFailure {
+    /// The item id.
+    pub item: String,
+    /// Its file.
+    pub file: String,
+    /// The module's error (or the engine's, for a bad outcome).
+    pub error: CalcError,
+}
+
+/// The outcome of a run.
+#[derive(Debug, Clone, Default)]
+pub struct RunOutcome {
+    /// Computed items by id.
+    pub items: BTreeMap<String, ItemRun>,
+    /// Items that failed, by id.
+    pub failures: Vec<ItemFailure>,
+    /// Items skipped because an item they link to failed.
+    pub skipped: Vec<String>,
+    /// How many items were computed (not taken from the cache).
+    pub computed: usize,
+}
+
+/// A store of earlier outcomes keyed by digest (see `cache`).
+pub trait OutcomeStore: Sync {
+    /// An earlier outcome for this digest, if any.
+    fn get(&self, digest: &str) -> Option<Outcome>;
+}
+
+/// The tool's version, which enters every digest.
+pub const TOOL_VERSION: &str = env!("CARGO_PKG_VERSION");
+
+/// A canonical text of resolved inputs, for digests.
+fn canonical_inputs(inputs: &Inputs) -> String {
+    let mut text = String::new();
+    let value_text = |v: &Value| match v {
+        // `{:?}` of f64 is the shortest text that reads back to the same bits.
+        Value::Quantity { value, dimension } => format!("q:{value:?}:{dimension}"),
+        Value::Number(x) => format!("n:{x:?}"),
+        Value::Count(n) => format!("c:{n}"),
+        Value::Choice(s) => format!("w:{s:?}"),
+        Value::Flag(b) => format!("f:{b}"),
+        Value::Material(s) => format!("m:{s:?}"),
+        Value::Structured(node) => format!("s:{:?}", structured_text(node)),
+    };
+    for (name, input) in &inputs.values {
+        text.push_str(&format!("input {name} = {}\n", value_text(&input.value)));
+    }
+    for (name, v) in &inputs.criteria {
+        text.push_str(&format!("criterion {name} = {}\n", value_text(v)));
+    }
+    text
+}
+
+/// A structured value without positions: moving a chute path down a line
+/// in its file does not change the calculation.
+pub fn structured_text(node: &packwright_api::Node) -> String {
+    use packwright_api::NodeValue as V;
+    match &node.value {
+        V::Null => "~".into(),
+        V::Bool(b) => format!("{b}"),
+        V::Number(x) => format!("{x:?}"),
+        V::Text(s) => format!("{s:?}"),
+        V::List(items) => format!(
+            "[{}]",
+            items
+                .iter()
+                .map(structured_text)
+                .collect::<Vec<_>>()
+                .join(",")
+        ),
+        V::Map(entries) => format!(
+            "{{{}}}",
+            entries
+                .iter()
+                .map(|(k, v)| format!("{}:{}", structured_text(k), structured_text(v)))
+                .collect::<Vec<_>>()
+                .join(",")
+        ),
+    }
+}
+
+/// The digest of an item's resolved inputs together with the module's name,
+/// version and fingerprint and the tool's version: the cache key.
+pub fn digest(inputs: &Inputs, decl: &ModuleDeclaration, fingerprint: Option<&str>) -> String {
+    let mut h = Sha256::new();
+    h.update(format!(
+        "packwright {TOOL_VERSION}\nmodule {} {}\nfingerprint {}\n",
+        decl.name,
+        decl.version,
+        fingerprint.unwrap_or("-")
+    ));
+    h.update(canonical_inputs(inputs));
+    let bytes = h.finalize();
+    let hex: String = bytes.iter().map(|b| format!("{b:02x}")).collect();
+    format!("sha256:{hex}")
+}
+
+/// Checks an outcome against the declaration: every required output there,
+/// nothing undeclared, dimensions right, every number finite.
+pub fn verify_outcome(
+    outcome: &Outcome,
+    decl: &ModuleDeclaration,
+    inputs: &Inputs,
+) -> Result<(), CalcError> {
+    let driven_by: Vec<String> = inputs.values.keys().cloned().collect();
+    let numerical = |what: String, message: &str| CalcError::Numerical {
+        quantity: what,
+        message: message.into(),
+        inputs: driven_by.clone(),
+    };
+    for (name, m) in &outcome.outputs {
+        let Some(spec) = decl.output(name) else {
+            return Err(CalcError::contract(format!(
+                "module `{}` returned `{name}`, which it does not declare",
+                decl.name
+            )));
+        };
+        if spec.dimension != m.dimension {
+            return Err(CalcError::contract(format!(
+                "output `{name}` should be {} but the module returned {}",
+                spec.dimension.describe(),
+                m.dimension.describe()
+            )));
+        }
+        if !m.value.is_finite() {
+            return Err(numerical(
+                format!("output `{name}`"),
+                &format!("the calculation gave {} (not a finite number)", m.value),
+            ));
+        }
+    }
+    for spec in &decl.outputs {
+        if !spec.optional && !outcome.outputs.contains_key(&spec.name) {
+            return Err(CalcError::contract(format!(
+                "module `{}` did not return its output `{}`",
+                decl.name, spec.name
+            )));
+        }
+    }
+    for check in &outcome.checks {
+        if !decl.checks.iter().any(|c| c.name == check.name) {
+            return Err(CalcError::contract(format!(
+                "module `{}` reported check `{}`, which it does not declare",
+                decl.name, check.name
+            )));
+        }
+        for m in [check.value, check.limit].into_iter().flatten() {
+            if !m.value.is_finite() {
+                return Err(numerical(
+                    format!("check `{}`", check.name),
+                    "the check's value or limit is not a finite number",
+                ));
+            }
+        }
+    }
+    for series in &outcome.series {
+        if series.rows.iter().flatten().any(|x| !x.is_finite()) {
+            return Err(numerical(
+                format!("series `{}`", series.name),
+                "the series holds a value that is not a finite number",
+            ));
+        }
+        if series.rows.iter().any(|r| r.len() != series.columns.len()) {
+            return Err(CalcError::contract(format!(
+                "series `{}` has rows of the wrong length",
+                series.name
+            )));
+        }
+    }
+    for plot in &outcome.plots {
+        let bad = plot
+            .layers
+            .iter()
+            .flat_map(|l| &l.points)
+            .any(|(x, y)| !x.is_finite() || !y.is_finite());
+        if bad {
+            return Err(numerical(
+                format!("plot `{}`", plot.id),
+                "the plot holds a point that is not a finite number",
+            ));
+        }
+    }
+    Ok(())
+}
+
+fn fill_links(item: &PlannedItem, done: &BTreeMap<String, ItemRun>) -> Option<Inputs> {
+    let mut inputs = item.inputs.clone();
+    for link in &item.links {
+        let source = done.get(&link.item)?;
+        let m: &Measure = source.outcome.outputs.get(&link.output)?;
+        let value = if m.dimension == Dimension::Dimensionless {
+            Value::Number(m.value)
+        } else {
+            Value::Quantity {
+                value: m.value,
+                dimension: m.dimension,
+            }
+        };
+        inputs.values.insert(
+            link.input.clone(),
+            ResolvedInput {
+                value,
+                origin: Origin::Link {
+                    item: link.item.clone(),
+                    output: link.output.clone(),
+                    span: link.span.clone(),
+                },
+                written: link.written.clone(),
+            },
+        );
+    }
+    Some(inputs)
+}
+
+/// Runs every item of the plan, level by level, items of a level in
+/// parallel. An item whose linked item failed is skipped. `store`, when
+/// given, supplies earlier outcomes for unchanged digests.
+pub fn run(plan: &Plan, registry: &Registry, store: Option<&dyn OutcomeStore>) -> RunOutcome {
+    let mut result = RunOutcome::default();
+    for level in &plan.levels {
+        let done = Mutex::new(Vec::new());
+        let failures = Mutex::new(Vec::new());
+        let skipped = Mutex::new(Vec::new());
+        level.par_iter().for_each(|id| {
+            let item = &plan.items[id];
+            let Some(inputs) = fill_links(item, &result.items) else {
+                skipped.lock().expect("not poisoned").push(id.clone());
+                return;
+            };
+            let registered = registry
+                .get(&item.module)
+                .expect("planned items have modules");
+            let decl = &registered.declaration;
+            let digest = digest(&inputs, decl, registered.fingerprint.as_deref());
+            let cached = store.and_then(|s| s.get(&digest));
+            let from_cache = cached.is_some();
+            let outcome = match cached {
+                Some(o) => Ok(o),
+                None => compute_guarded(registered.module.as_ref(), &inputs)
+                    .and_then(|o| verify_outcome(&o, decl, &inputs).map(|_| o)),
+            };
+            match outcome {
+                Ok(outcome) => done.lock().expect("not poisoned").push(ItemRun {
+                    item: item.clone(),
+                    inputs,
+                    module_version: decl.version.clone(),
+                    inputs_digest: digest,
+                    outcome,
+                    from_cache,
+                }),
+                Err(error) => failures.lock().expect("not poisoned").push(ItemFailure {
+                    item: id.clone(),
+                    file: item.file.to_string(),
+                    error,
+                }),
+            }
+        });
+        for run in done.into_inner().expect("not poisoned") {
+            if !run.from_cache {
+                result.computed += 1;
+            }
+            result.items.insert(run.item.id.clone(), run);
+        }
+        result
+            .failures
+            .extend(failures.into_inner().expect("not poisoned"));
+        result
+            .skipped
+            .extend(skipped.into_inner().expect("not poisoned"));
+    }
+    result.failures.sort_by(|a, b| a.item.cmp(&b.item));
+    result.skipped.sort();
+    result
+}
+
+/// Computes one item, turning a panic inside a module into a contract error
+/// so that one bad module cannot take the run down.
+fn compute_guarded(module: &dyn Module, inputs: &Inputs) -> Result<Outcome, CalcError> {
+    std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| module.compute(inputs)))
+        .unwrap_or_else(|panic| {
+            let what = panic
+                .downcast_ref::<&str>()
+                .map(|s| s.to_string())
+                .or_else(|| panic.downcast_ref::<String>().cloned())
+                .unwrap_or_else(|| "unknown".into());
+            Err(CalcError::contract(format!(
+                "the module stopped unexpectedly: {what}"
+            )))
+        })
+}

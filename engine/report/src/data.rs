@@ -1,0 +1,468 @@
+//! The data a package's templates see: the project, its revisions and
+//! sign-off, a summary of every item and check, and per item its inputs
+//! (with where each came from), method, results, checks, plots,
+//! assumptions, cautions and references. Every number is formatted here, in
+//! the project's display units, so templates never format numbers.
+//!
+//! Owns no state: a pure function of the run.
+
+use std::collections::BTreeSet;
+
+use packwright_api::{Origin, Relation, Status, UnitSystem, Value};
+use packwright_core::display;
+use packwright_core::project::Revision;
+use packwright_core::{Project, Registry, RunOutcome};
+use serde::Serialize;
+use sha2::{Digest, Sha256};
+
+/// One row of the "Changes since revision X" section.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct ChangeRow {
+    /// Item id.
+    pub item: String,
+    /// What changed (`input`, `output`, `check`, `item`).
+    pub kind: String,
+    /// Name of the input, output or check.
+    pub name: String,
+    /// Old value as text.
+    pub old: String,
+    /// New value as text.
+    pub new: String,
+    /// Change in percent, if numeric.
+    pub change: String,
+}
+
+/// Review information the package shows (from issued revisions).
+#[derive(Debug, Clone, Default, Serialize, PartialEq)]
+pub struct Review {
+    /// The revision the changes are measured from, with its rows.
+    pub changes_since: Option<String>,
+    /// The rows.
+    pub changes: Vec<ChangeRow>,
+    /// When set, a banner on every page says the sign-off is stale.
+    pub stale: Option<String>,
+}
+
+#[derive(Serialize)]
+struct InputRow {
+    name: String,
+    meaning: String,
+    value: String,
+    source: String,
+    link: Option<String>,
+}
+
+#[derive(Serialize)]
+struct OutputRow {
+    name: String,
+    meaning: String,
+    value: String,
+    unit: String,
+}
+
+#[derive(Serialize)]
+struct CheckRow {
+    name: String,
+    pass: bool,
+    value: String,
+    relation: String,
+    limit: String,
+    explanation: String,
+}
+
+#[derive(Serialize)]
+struct CriterionRow {
+    name: String,
+    meaning: String,
+    value: String,
+    basis: String,
+}
+
+#[derive(Serialize)]
+struct PlotRef {
+    path: String,
+    title: String,
+}
+
+#[derive(Serialize)]
+struct MethodRow {
+    text: String,
+    equation: Option<String>,
+}
+
+#[derive(Serialize)]
+struct ItemData {
+    id: String,
+    label: String,
+    title: String,
+    module: String,
+    module_version: String,
+    module_origin: String,
+    purpose: String,
+    file: String,
+    notes: Option<String>,
+    inputs_digest: String,
+    inputs: Vec<InputRow>,
+    criteria: Vec<CriterionRow>,
+    method: Vec<MethodRow>,
+    outputs: Vec<OutputRow>,
+    checks: Vec<CheckRow>,
+    any_fail: bool,
+    plots: Vec<PlotRef>,
+    module_notes: Vec<String>,
+    assumptions: Vec<String>,
+    cautions: Vec<String>,
+    references: Vec<String>,
+}
+
+#[derive(Serialize)]
+struct SummaryRow {
+    id: String,
+    label: String,
+    title: String,
+    module: String,
+    key: String,
+    passed: usize,
+    failed: Vec<String>,
+    any_fail: bool,
+    no_checks: bool,
+}
+
+#[derive(Serialize)]
+struct ProjectData {
+    name: String,
+    document: String,
+    title: String,
+    client: String,
+    units: String,
+}
+
+/// All the template data, and the plot files the templates refer to.
+#[derive(Serialize)]
+pub struct PackageData {
+    project: ProjectData,
+    revision: Revision,
+    revisions: Vec<Revision>,
+    status: String,
+    digest: String,
+    review: Review,
+    summary: Vec<SummaryRow>,
+    item_count: usize,
+    check_count: usize,
+    failed_count: usize,
+    items: Vec<ItemData>,
+    references: Vec<String>,
+    tool_version: String,
+    #[serde(skip)]
+    item_module: Vec<(String, String)>,
+}
+
+impl PackageData {
+    /// Item ids with their module names, in package order.
+    pub fn item_modules(&self) -> &[(String, String)] {
+        &self.item_module
+    }
+
+    /// The short digest printed in every footer.
+    pub fn digest(&self) -> &str {
+        &self.digest
+    }
+}
+
+/// The status words for the cover, from the signatures recorded.
+/// packwright never approves anything: it reports what people signed.
+fn status_words(rev: &Revision) -> String {
+    match (&rev.checked, &rev.approved) {
+        (_, Some(a)) => format!(
+            "Approval recorded in project.yaml by {} on {}; valid only with the signed original",
+            a.name, a.date
+        ),
+        (Some(c), None) => format!("Checked by {} on {}; not approved", c.name, c.date),
+        (None, None) => "Prepared; not checked, not approved".into(),
+    }
+}
+
+/// A short digest over every item's inputs digest: it changes when any
+/// input of any item changes.
+pub fn package_digest(outcome: &RunOutcome) -> String {
+    let mut h = Sha256::new();
+    for run in outcome.items.values() {
+        h.update(run.item.id.as_bytes());
+        h.update(b"=");
+        h.update(run.inputs_digest.as_bytes());
+        h.update(b"\n");
+    }
+    h.finalize()
+        .iter()
+        .take(6)
+        .map(|b| format!("{b:02x}"))
+        .collect()
+}
+
+/// A Typst label name for an item.
+pub fn label_of(id: &str) -> String {
+    format!("item-{id}")
+}
+
+fn value_words(value: &Value, system: UnitSystem, written: &str) -> String {
+    match value {
+        Value::Quantity { value, dimension } if written.is_empty() => {
+            display::joined(display::measure(
+                &packwright_api::Measure {
+                    value: *value,
+                    dimension: *dimension,
+                },
+                system,
+            ))
+        }
+        Value::Structured(_) => "see the geometry below".into(),
+        _ => written.to_string(),
+    }
+}
+
+/// Builds the template data and the plot files for a run.
+pub fn build(
+    project: &Project,
+    outcome: &RunOutcome,
+    registry: &Registry,
+    review: &Review,
+) -> Result<(PackageData, Vec<(String, Vec<u8>)>), String> {
+    let system = project.meta.units;
+    let revision = project
+        .meta
+        .current_revision()
+        .cloned()
+        .ok_or("project.yaml lists no revision")?;
+    let mut items = Vec::new();
+    let mut summary = Vec::new();
+    let mut plots_out = Vec::new();
+    let mut all_refs = BTreeSet::new();
+    let (mut check_count, mut failed_count) = (0, 0);
+    let mut item_module = Vec::new();
+    for run in outcome.items.values() {
+        let reg = registry
+            .get(&run.item.module)
+            .ok_or("item module vanished")?;
+        let decl = &reg.declaration;
+        let mut inputs = Vec::new();
+        for spec in &decl.inputs {
+            let Some(input) = run.inputs.values.get(&spec.name) else {
+                continue;
+            };
+            let (source, link) = match &input.origin {
+                Origin::Item { span } => (format!("{}:{}", span.file, span.line), None),
+                Origin::Material { material, span } => (
+                    format!("material {material} ({}:{})", span.file, span.line),
+                    None,
+                ),
+                Origin::Link { item, output, .. } => {
+                    (format!("{output} of {item}"), Some(label_of(item)))
+                }
+                Origin::Default => ("module default".into(), None),
+            };
+            let written = if matches!(input.origin, Origin::Link { .. }) {
+                ""
+            } else {
+                input.written.as_str()
+            };
+            inputs.push(InputRow {
+                name: spec.name.clone(),
+                meaning: spec.meaning.clone(),
+                value: value_words(&input.value, system, written),
+                source,
+                link,
+            });
+        }
+        let criteria = decl
+            .criteria
+            .iter()
+            .filter_map(|c| {
+                let v = run.inputs.criteria.get(&c.name)?;
+                let default_si = c
+                    .default
+                    .as_ref()
+                    .and_then(|d| packwright_api::units::parse_expecting(d, c.dimension).ok())
+                    .map(|q| q.value_si);
+                let current = match v {
+                    Value::Quantity { value, .. } | Value::Number(value) => Some(*value),
+                    _ => None,
+                };
+                let overridden = default_si != current;
+                let value = match v {
+                    Value::Quantity { value, dimension } => display::joined(display::measure(
+                        &packwright_api::Measure {
+                            value: *value,
+                            dimension: *dimension,
+                        },
+                        system,
+                    )),
+                    Value::Number(x) => {
+                        packwright_api::units::format_significant(*x, display::DISPLAY_FIGURES)
+                    }
+                    _ => String::new(),
+                };
+                Some(CriterionRow {
+                    name: c.name.clone(),
+                    meaning: c.meaning.clone(),
+                    value,
+                    basis: if overridden {
+                        "set in the item file".into()
+                    } else {
+                        c.basis.clone()
+                    },
+                })
+            })
+            .collect();
+        let outputs = decl
+            .outputs
+            .iter()
+            .filter_map(|spec| {
+                let m = run.outcome.outputs.get(&spec.name)?;
+                let (value, unit) = display::output(m, Some(spec), system);
+                Some(OutputRow {
+                    name: spec.name.clone(),
+                    meaning: spec.meaning.clone(),
+                    value,
+                    unit,
+                })
+            })
+            .collect();
+        let mut passed = 0;
+        let mut failed = Vec::new();
+        let checks: Vec<CheckRow> = run
+            .outcome
+            .checks
+            .iter()
+            .map(|c| {
+                let pass = c.status == Status::Pass;
+                if pass {
+                    passed += 1;
+                } else {
+                    failed.push(c.name.clone());
+                }
+                let show = |m: &Option<packwright_api::Measure>| {
+                    m.as_ref()
+                        .map(|m| display::joined(display::measure(m, system)))
+                        .unwrap_or_default()
+                };
+                CheckRow {
+                    name: c.name.clone(),
+                    pass,
+                    value: show(&c.value),
+                    relation: match c.relation {
+                        Relation::AtMost => "≤".into(),
+                        Relation::AtLeast => "≥".into(),
+                        Relation::Condition => String::new(),
+                    },
+                    limit: show(&c.limit),
+                    explanation: c.explanation.clone(),
+                }
+            })
+            .collect();
+        check_count += checks.len();
+        failed_count += failed.len();
+        let mut plots = Vec::new();
+        for plot in &run.outcome.plots {
+            let svg = crate::plot::svg(plot, system)?;
+            let path = format!("plots/{}.svg", plots_out.len() + 1);
+            plots_out.push((path.clone(), svg.into_bytes()));
+            plots.push(PlotRef {
+                path,
+                title: plot.title.clone(),
+            });
+        }
+        let key = decl
+            .outputs
+            .iter()
+            .find(|o| o.key && run.outcome.outputs.contains_key(&o.name))
+            .map(|spec| {
+                format!(
+                    "{} = {}",
+                    spec.name.replace('_', " "),
+                    display::joined(display::output(
+                        &run.outcome.outputs[&spec.name],
+                        Some(spec),
+                        system
+                    ))
+                )
+            })
+            .unwrap_or_else(|| "no key result (see checks)".into());
+        all_refs.extend(decl.references.iter().cloned());
+        summary.push(SummaryRow {
+            id: run.item.id.clone(),
+            label: label_of(&run.item.id),
+            title: run.item.title.clone(),
+            module: decl.name.clone(),
+            key,
+            passed,
+            any_fail: !failed.is_empty(),
+            no_checks: checks.is_empty(),
+            failed: failed.clone(),
+        });
+        item_module.push((run.item.id.clone(), decl.name.clone()));
+        items.push(ItemData {
+            id: run.item.id.clone(),
+            label: label_of(&run.item.id),
+            title: run.item.title.clone(),
+            module: decl.name.clone(),
+            module_version: decl.version.clone(),
+            module_origin: match (&reg.origin, &reg.fingerprint) {
+                (packwright_core::ModuleOrigin::BuiltIn, _) => "built into packwright".into(),
+                (packwright_core::ModuleOrigin::External(path), Some(fp)) => {
+                    format!("external module {path}, {fp}")
+                }
+                (packwright_core::ModuleOrigin::External(path), None) => {
+                    format!("external module {path}")
+                }
+            },
+            purpose: decl.purpose.clone(),
+            file: run.item.file.to_string(),
+            notes: run.item.notes.clone(),
+            inputs_digest: run.inputs_digest.clone(),
+            inputs,
+            criteria,
+            method: decl
+                .method
+                .iter()
+                .map(|m| MethodRow {
+                    text: m.text.clone(),
+                    equation: m.equation.clone(),
+                })
+                .collect(),
+            outputs,
+            any_fail: !failed.is_empty(),
+            checks,
+            plots,
+            module_notes: run.outcome.notes.clone(),
+            assumptions: decl.assumptions.clone(),
+            cautions: decl.cautions.clone(),
+            references: decl.references.clone(),
+        });
+    }
+    let data = PackageData {
+        project: ProjectData {
+            name: project.meta.project.clone(),
+            document: project.meta.document.clone(),
+            title: project.meta.title.clone(),
+            client: project.meta.client.clone(),
+            units: match system {
+                UnitSystem::Si => "SI".into(),
+                UnitSystem::Us => "US customary".into(),
+            },
+        },
+        status: status_words(&revision),
+        revision,
+        revisions: project.meta.revisions.clone(),
+        digest: package_digest(outcome),
+        review: review.clone(),
+        item_count: summary.len(),
+        check_count,
+        failed_count,
+        summary,
+        items,
+        references: all_refs.into_iter().collect(),
+        tool_version: packwright_core::run::TOOL_VERSION.into(),
+        item_module,
+    };
+    Ok((data, plots_out))
+}

@@ -1,0 +1,307 @@
+//! The package's Handlebars templates: the defaults embedded in the binary,
+//! a project's overrides from its own `templates/` folder (a file of the
+//! same name replaces a default), and rendering section by section so that
+//! a Typst error can be traced to the template it came from.
+//!
+//! User text is escaped for Typst markup by the registered escape function;
+//! `{{{triple}}}` is used only for trusted text (module equations, labels).
+//! Owns no state beyond the registered templates.
+
+use std::path::Path;
+
+use handlebars::Handlebars;
+use serde_json::Value as Json;
+
+use crate::data::PackageData;
+use crate::escape::typst_markup;
+
+/// The default templates, by name (file name without `.typ.hbs`).
+pub const DEFAULTS: &[(&str, &str)] = &[
+    (
+        "preamble",
+        include_str!("../../../templates/preamble.typ.hbs"),
+    ),
+    ("cover", include_str!("../../../templates/cover.typ.hbs")),
+    (
+        "revisions",
+        include_str!("../../../templates/revisions.typ.hbs"),
+    ),
+    (
+        "signoff",
+        include_str!("../../../templates/signoff.typ.hbs"),
+    ),
+    (
+        "contents",
+        include_str!("../../../templates/contents.typ.hbs"),
+    ),
+    (
+        "summary",
+        include_str!("../../../templates/summary.typ.hbs"),
+    ),
+    (
+        "changes",
+        include_str!("../../../templates/changes.typ.hbs"),
+    ),
+    (
+        "cautions",
+        include_str!("../../../templates/cautions.typ.hbs"),
+    ),
+    (
+        "references",
+        include_str!("../../../templates/references.typ.hbs"),
+    ),
+    ("item", include_str!("../../../templates/item.typ.hbs")),
+    (
+        "item-heading",
+        include_str!("../../../templates/item-heading.typ.hbs"),
+    ),
+    (
+        "item-inputs",
+        include_str!("../../../templates/item-inputs.typ.hbs"),
+    ),
+    (
+        "item-method",
+        include_str!("../../../templates/item-method.typ.hbs"),
+    ),
+    (
+        "item-results",
+        include_str!("../../../templates/item-results.typ.hbs"),
+    ),
+    (
+        "item-checks",
+        include_str!("../../../templates/item-checks.typ.hbs"),
+    ),
+    (
+        "item-plots",
+        include_str!("../../../templates/item-plots.typ.hbs"),
+    ),
+    (
+        "item-notes",
+        include_str!("../../../templates/item-notes.typ.hbs"),
+    ),
+    (
+        "modules/belt-pickup",
+        include_str!("../../../templates/modules/belt-pickup.typ.hbs"),
+    ),
+    (
+        "modules/chute-discharge",
+        include_str!("../../../templates/modules/chute-discharge.typ.hbs"),
+    ),
+    (
+        "modules/hopper-outlet",
+        include_str!("../../../templates/modules/hopper-outlet.typ.hbs"),
+    ),
+    (
+        "modules/chain-payout",
+        include_str!("../../../templates/modules/chain-payout.typ.hbs"),
+    ),
+    (
+        "modules/hoist-loads",
+        include_str!("../../../templates/modules/hoist-loads.typ.hbs"),
+    ),
+];
+
+/// The front matter, in package order, before the item sections.
+const FRONT: &[&str] = &[
+    "cover",
+    "revisions",
+    "signoff",
+    "contents",
+    "summary",
+    "changes",
+    "cautions",
+];
+
+/// A problem with a template.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TemplateError {
+    /// The template's file (an override's path, or the default's name).
+    pub file: String,
+    /// Line in the template, when known.
+    pub line: Option<usize>,
+    /// What is wrong.
+    pub message: String,
+}
+
+/// Where each part of the generated Typst source came from.
+#[derive(Debug, Clone)]
+pub struct Segment {
+    /// The template name.
+    pub template: String,
+    /// The template file (override path or `(built in)`).
+    pub file: String,
+    /// The item the section is for, if any.
+    pub item: Option<String>,
+    /// First line of the segment in `main.typ` (1-based).
+    pub first_line: usize,
+}
+
+/// The registered templates.
+pub struct Templates {
+    hb: Handlebars<'static>,
+    files: std::collections::BTreeMap<String, String>,
+}
+
+fn template_error(name: &str, file: &str, e: &handlebars::TemplateError) -> TemplateError {
+    TemplateError {
+        file: file.to_string(),
+        line: e.pos().map(|(line, _)| line),
+        message: format!("template `{name}`: {}", e.reason()),
+    }
+}
+
+impl Templates {
+    /// Registers the defaults, then the overrides in `project_templates`
+    /// (if that folder exists). An override must have a default's name.
+    pub fn load(project_templates: Option<&Path>) -> Result<Templates, TemplateError> {
+        let mut hb = Handlebars::new();
+        hb.set_strict_mode(true);
+        hb.register_escape_fn(typst_markup);
+        let mut files = std::collections::BTreeMap::new();
+        for (name, text) in DEFAULTS {
+            hb.register_template_string(name, text).map_err(|e| {
+                template_error(name, &format!("templates/{name}.typ.hbs (built in)"), &e)
+            })?;
+            files.insert(name.to_string(), "(built in)".to_string());
+        }
+        let Some(dir) = project_templates.filter(|d| d.is_dir()) else {
+            return Ok(Templates { hb, files });
+        };
+        let root = dir.canonicalize().map_err(|e| TemplateError {
+            file: dir.display().to_string(),
+            line: None,
+            message: format!("cannot open the templates folder: {e}"),
+        })?;
+        for (name, _) in DEFAULTS {
+            let path = dir.join(format!("{name}.typ.hbs"));
+            if !path.exists() {
+                continue;
+            }
+            let shown = format!("templates/{name}.typ.hbs");
+            let real = path.canonicalize().map_err(|e| TemplateError {
+                file: shown.clone(),
+                line: None,
+                message: format!("cannot open the template: {e}"),
+            })?;
+            if !real.starts_with(&root) {
+                return Err(TemplateError {
+                    file: shown,
+                    line: None,
+                    message:
+                        "this template is a link to a file outside the project's templates folder"
+                            .into(),
+                });
+            }
+            let text = std::fs::read_to_string(&real).map_err(|e| TemplateError {
+                file: shown.clone(),
+                line: None,
+                message: format!("cannot read the template (it must be UTF-8 text): {e}"),
+            })?;
+            hb.register_template_string(name, text)
+                .map_err(|e| template_error(name, &shown, &e))?;
+            files.insert(name.to_string(), shown);
+        }
+        for entry in walk_templates(&root) {
+            let rel = entry
+                .strip_prefix(&root)
+                .unwrap_or(&entry)
+                .to_string_lossy()
+                .replace('\\', "/");
+            let name = rel.trim_end_matches(".typ.hbs");
+            if !DEFAULTS.iter().any(|(n, _)| *n == name) {
+                let known: Vec<&str> = DEFAULTS.iter().map(|(n, _)| *n).collect();
+                return Err(TemplateError {
+                    file: format!("templates/{rel}"),
+                    line: None,
+                    message: format!(
+                        "no built-in template is called `{name}`, so this file would replace nothing; known templates: {}",
+                        known.join(", ")
+                    ),
+                });
+            }
+        }
+        Ok(Templates { hb, files })
+    }
+
+    fn render_one(&self, name: &str, data: &Json) -> Result<String, TemplateError> {
+        self.hb.render(name, data).map_err(|e| TemplateError {
+            file: self.files.get(name).cloned().unwrap_or_else(|| name.into()),
+            line: e.line_no,
+            message: format!("template `{name}`: {}", e.reason()),
+        })
+    }
+
+    /// Renders the whole package source: the preamble, the front matter,
+    /// one section per item (the module's template, or the generic one),
+    /// and the references. Returns the source and where each part came from.
+    pub fn render(&self, data: &PackageData) -> Result<(String, Vec<Segment>), TemplateError> {
+        let json = serde_json::to_value(data).map_err(|e| TemplateError {
+            file: "(package data)".into(),
+            line: None,
+            message: e.to_string(),
+        })?;
+        let mut text = String::new();
+        let mut segments = Vec::new();
+        let mut push = |template: &str, item: Option<&str>, rendered: String, text: &mut String| {
+            segments.push(Segment {
+                template: template.to_string(),
+                file: self.files.get(template).cloned().unwrap_or_default(),
+                item: item.map(String::from),
+                first_line: text.lines().count() + 1,
+            });
+            text.push_str(&rendered);
+            if !rendered.ends_with('\n') {
+                text.push('\n');
+            }
+        };
+        for name in std::iter::once("preamble").chain(FRONT.iter().copied()) {
+            let rendered = self.render_one(name, &json)?;
+            push(name, None, rendered, &mut text);
+        }
+        let items = json["items"].as_array().cloned().unwrap_or_default();
+        for (item, (id, module)) in items.iter().zip(data.item_modules()) {
+            let specific = format!("modules/{module}");
+            let name = if self.files.contains_key(&specific) {
+                specific.as_str()
+            } else {
+                "item"
+            };
+            // A small context per item: the whole package would be cloned
+            // once per item otherwise.
+            let ctx = serde_json::json!({
+                "project": json["project"],
+                "revision": json["revision"],
+                "digest": json["digest"],
+                "item": item,
+            });
+            let rendered = self.render_one(name, &ctx)?;
+            push(name, Some(id), rendered, &mut text);
+        }
+        let rendered = self.render_one("references", &json)?;
+        push("references", None, rendered, &mut text);
+        Ok((text, segments))
+    }
+}
+
+fn walk_templates(root: &Path) -> Vec<std::path::PathBuf> {
+    let mut out = Vec::new();
+    let mut stack = vec![(root.to_path_buf(), 0)];
+    while let Some((dir, depth)) = stack.pop() {
+        let Ok(entries) = std::fs::read_dir(&dir) else {
+            continue;
+        };
+        for entry in entries.flatten() {
+            let path = entry.path();
+            let Ok(kind) = entry.file_type() else {
+                continue;
+            };
+            if kind.is_dir() && depth < 2 {
+                stack.push((path, depth + 1));
+            } else if kind.is_file() && path.to_string_lossy().ends_with(".typ.hbs") {
+                out.push(path);
+            }
+        }
+    }
+    out.sort();
+    out
+}
