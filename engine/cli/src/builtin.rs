@@ -7,7 +7,7 @@ use packwright_api::Module;
 use packwright_core::{ModuleOrigin, Registry};
 
 /// Every module compiled into the binary.
-pub(crate) fn modules() -> Vec<Arc<dyn Module>> {
+pub fn modules() -> Vec<Arc<dyn Module>> {
     vec![
         Arc::new(packwright_belt_pickup::BeltPickup),
         Arc::new(packwright_chute_discharge::ChuteDischarge),
@@ -18,7 +18,7 @@ pub(crate) fn modules() -> Vec<Arc<dyn Module>> {
 }
 
 /// A registry of the built-in modules.
-pub(crate) fn registry() -> Registry {
+pub fn registry() -> Registry {
     let mut registry = Registry::new();
     for module in modules() {
         registry

@@ -7,7 +7,8 @@ use std::path::Path;
 use packwright_api::{InputKind, Need, Status};
 use packwright_core::{display, EngineError, RunOptions};
 
-use crate::{builtin, newproject, render, Command};
+use crate::{newproject, render, Command};
+use packwright::builtin;
 
 /// How chatty to be.
 pub(crate) struct Output {

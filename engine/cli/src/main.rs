@@ -6,7 +6,6 @@
 //! This is the only crate that knows every built-in module (see
 //! `builtin.rs`). Owns no state.
 
-mod builtin;
 mod commands;
 mod newproject;
 mod render;

@@ -197,7 +197,11 @@ pub fn let_go(c: &BrakedChain, tol: &Tolerance) -> Result<BrakeRun, OdeError> {
             match (braking, end) {
                 (_, Ending::Event(0)) | (_, Ending::EndTime) => break,
                 (true, Ending::Event(_)) => {
+                    // The event is located to round-off; the chain is at rest.
                     state[1] = 0.0;
+                    if let Some(last) = samples.last_mut() {
+                        *last = sample(t, &state, true);
+                    }
                     ending = BrakeEnding::Stopped;
                     break;
                 }

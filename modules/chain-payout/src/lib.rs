@@ -684,7 +684,7 @@ fn method() -> Vec<MethodStep> {
         MethodStep::equation(
             "Chain strength by grade (d in mm, loads in kN): IACS U1-U3 and DNV R3-R4 formulas; \
              EN 818-2 grade 8 from 800 N/mm² on both legs, WLL from the table.",
-            "F = c d^2 (44 - 0.08 d), quad F_(B F) = 2 frac(pi d^2, 4) 800 \"N/mm\"^2",
+            "F = c d^2 (44 - 0.08 d), quad F_(B F) = 2 dot frac(pi d^2, 4) dot 800 \" N/mm\"^2",
         ),
     ]
 }
@@ -1371,11 +1371,18 @@ fn compute_brake(
         ));
     }
     speed_check(inputs, Some(run.max_speed), out)?;
-    brake_series(&run, out);
+    let end_label = if end_word.contains("bitter end") {
+        "bitter end"
+    } else if end_word.contains("sea bed") {
+        "sea bed"
+    } else {
+        "landing"
+    };
+    brake_series(&run, end_length, end_label, out);
     Ok(())
 }
 
-fn brake_series(run: &brake::BrakeRun, out: &mut Outcome) {
+fn brake_series(run: &brake::BrakeRun, end_length: Length, end_label: &str, out: &mut Outcome) {
     let mut series = Series::new(
         "let_go",
         &[
@@ -1430,9 +1437,35 @@ fn brake_series(run: &brake::BrakeRun, out: &mut Outcome) {
         LayerStyle::Dashed,
         series.rows.iter().map(|r| (r[0], r[4])).collect(),
     );
+    let mut distance_plot = Plot::new(
+        "speed_by_length",
+        "Chain speed against paid-out length, with where the run must end",
+        Axis::new("paid-out length", Dimension::Length),
+        Axis::new("chain speed", Dimension::Velocity),
+    )
+    .layer(
+        Some("speed"),
+        LayerStyle::Line,
+        series.rows.iter().map(|r| (r[1], r[2])).collect(),
+    );
+    let top = run.max_speed.to_si();
+    if let Some(a) = run.applied {
+        let x = a.paid_out.to_si();
+        distance_plot = distance_plot.layer(
+            Some("brake applied"),
+            LayerStyle::Reference,
+            vec![(x, 0.0), (x, top)],
+        );
+    }
+    distance_plot = distance_plot.layer(
+        Some(end_label),
+        LayerStyle::Reference,
+        vec![(end_length.to_si(), 0.0), (end_length.to_si(), top)],
+    );
     out.series.push(series);
     out.plots.push(speed_plot);
     out.plots.push(tension_plot);
+    out.plots.push(distance_plot);
 }
 
 #[cfg(test)]

@@ -161,6 +161,13 @@ fn braked_let_go_through_the_module() {
         check(&out, "tension_within_breaking_load").status,
         Status::Pass
     );
+    // Speed against time, tension against time, speed against length with
+    // the brake point and the sea bed drawn as reference lines.
+    assert_eq!(out.plots.len(), 3);
+    let by_length = &out.plots[2];
+    let last = by_length.layers[0].points.last().unwrap();
+    assert!(rel(last.0, 20.0) < 1e-8 && last.1 == 0.0);
+    assert_eq!(by_length.layers[2].points[0].0, 60.0);
 }
 
 #[test]

@@ -82,7 +82,8 @@ pub struct Integration {
 /// the Dormand-Prince 5(4) pair, step size controlled so that the local
 /// error estimate stays below `tol (1 + |u|)`. `event(s, u)` names a
 /// condition that ends the integration (a stall, a lift-off); its location
-/// is found by bisection on the step to 1e-10 of the interval.
+/// is found by bisection on the step to 1e-10 of the interval. Steps are
+/// at most `max_step`, so that the accepted points sample the solution.
 ///
 /// Source of the coefficients: J.R. Dormand, P.J. Prince, J. Comput. Appl.
 /// Math. 6 (1980) 19-26.
@@ -93,6 +94,7 @@ pub fn integrate(
     s1: f64,
     u0: f64,
     tol: f64,
+    max_step: f64,
 ) -> Integration {
     let mut points = vec![(s0, u0)];
     if let Some(stop) = event(s0, u0) {
@@ -104,7 +106,7 @@ pub fn integrate(
     let mut guard = 0;
     while s < s1 - 1e-12 * span.max(1.0) && guard < 1_000_000 {
         guard += 1;
-        h = h.min(s1 - s);
+        h = h.min(s1 - s).min(max_step);
         let (u5, err) = dopri_step(f, s, u, h);
         let scale = tol * (1.0 + u.abs());
         if err > scale && h > 1e-12 {
@@ -424,6 +426,7 @@ pub fn follow_stream(
                 seg.length(),
                 u,
                 1e-11,
+                seg.length() / 40.0,
             );
             for &(s, uu) in &run.points {
                 passage.profile.push(ProfilePoint {
@@ -567,6 +570,7 @@ mod tests {
                 seg.length(),
                 u,
                 1e-11,
+                0.05,
             );
             u = run.points.last().unwrap().1;
             out.extend(run.points);
@@ -658,6 +662,7 @@ mod tests {
             arc.length(),
             0.5,
             1e-11,
+            0.05,
         );
         assert_eq!(run.stop, Stop::LiftOff);
         let phi = run.points.last().unwrap().0;
@@ -685,6 +690,7 @@ mod tests {
             5.0,
             0.5 * 2.0 * 2.0,
             1e-11,
+            0.05,
         );
         assert_eq!(run.stop, Stop::Stall);
         let expect = 4.0 / (2.0 * 9.81 * (0.6 * a.cos() - a.sin()));

@@ -538,7 +538,7 @@ fn segment(node: &Node, index: usize) -> Result<Segment, CalcError> {
             let from_angle = angle(f[2], &format!("from_angle of segment {n}"))?;
             let to_angle = angle(f[3], &format!("to_angle of segment {n}"))?;
             let sweep = (to_angle - from_angle).abs();
-            if sweep < 1e-6 || sweep > std::f64::consts::TAU + 1e-9 {
+            if !(1e-6..=std::f64::consts::TAU + 1e-9).contains(&sweep) {
                 return Err(err(
                     &f[3].span,
                     format!(

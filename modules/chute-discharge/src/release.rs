@@ -49,12 +49,17 @@ pub fn cema_release(
     let (v, r, alpha) = (speed.value, radius.value, belt_slope.value);
     let ratio = v * v / (g.value * r);
     let at_tangent = ratio >= alpha.cos();
-    let phi = if at_tangent { -alpha } else { ratio.acos() };
+    // `0.0 - x` rather than `-x`, so that a level belt reports +0, not -0.
+    let phi = if at_tangent {
+        0.0 - alpha
+    } else {
+        ratio.acos()
+    };
     Release {
         ratio,
         at_tangent,
         position_angle: si(phi),
-        launch_angle: si(-phi),
+        launch_angle: si(0.0 - phi),
         x: si(r * phi.sin()),
         y: si(r * phi.cos()),
         speed,
