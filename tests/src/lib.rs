@@ -14,9 +14,16 @@ use std::process::Command;
 pub fn bin() -> PathBuf {
     let exe = std::env::current_exe().expect("test executable path");
     // target/<profile>/deps/<test> -> target/<profile>/packwright
-    let dir = exe.parent().and_then(Path::parent).expect("target profile folder");
+    let dir = exe
+        .parent()
+        .and_then(Path::parent)
+        .expect("target profile folder");
     let path = dir.join(format!("packwright{}", std::env::consts::EXE_SUFFIX));
-    assert!(path.exists(), "{} is missing: run `cargo test --workspace`", path.display());
+    assert!(
+        path.exists(),
+        "{} is missing: run `cargo test --workspace`",
+        path.display()
+    );
     path
 }
 
@@ -55,7 +62,10 @@ pub fn packwright(cwd: &Path, args: &[&str]) -> Ran {
 
 /// The repository's root folder.
 pub fn repo_root() -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).parent().expect("tests/ is in the repo").to_path_buf()
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .parent()
+        .expect("tests/ is in the repo")
+        .to_path_buf()
 }
 
 /// A minimal `project.yaml` for test trees.
@@ -84,8 +94,14 @@ pub fn demo_copy() -> tempfile::TempDir {
     for entry in walkdir::WalkDir::new(&src).sort_by_file_name() {
         let entry = entry.expect("walk demo");
         let rel = entry.path().strip_prefix(&src).expect("inside");
-        let first = rel.components().next().map(|c| c.as_os_str().to_string_lossy().into_owned());
-        if matches!(first.as_deref(), Some("results" | "package" | "issued" | ".packwright-cache")) {
+        let first = rel
+            .components()
+            .next()
+            .map(|c| c.as_os_str().to_string_lossy().into_owned());
+        if matches!(
+            first.as_deref(),
+            Some("results" | "package" | "issued" | ".packwright-cache")
+        ) {
             continue;
         }
         let target = dir.path().join(rel);
@@ -104,9 +120,17 @@ pub fn snapshot(dir: &Path) -> BTreeMap<PathBuf, Vec<u8>> {
     if !dir.exists() {
         return map;
     }
-    for entry in walkdir::WalkDir::new(dir).sort_by_file_name().into_iter().flatten() {
+    for entry in walkdir::WalkDir::new(dir)
+        .sort_by_file_name()
+        .into_iter()
+        .flatten()
+    {
         if entry.file_type().is_file() {
-            let rel = entry.path().strip_prefix(dir).expect("inside").to_path_buf();
+            let rel = entry
+                .path()
+                .strip_prefix(dir)
+                .expect("inside")
+                .to_path_buf();
             map.insert(rel, std::fs::read(entry.path()).expect("read"));
         }
     }

@@ -72,8 +72,10 @@ pub trait Module: Send + Sync {
     /// Checks what the declaration cannot express: the shape of a
     /// structured input, inputs that one case needs and another does not.
     /// `packwright check` calls it, so every problem it returns should be a
-    /// [`CalcError::Input`] pointing at a span. Linked inputs whose source
-    /// has not been computed yet are absent from `inputs` here.
+    /// [`CalcError::Input`] pointing at a span. The engine calls it for items
+    /// without links; an item with links is checked when it runs, so
+    /// `compute` should begin with the same validation (its input errors are
+    /// reported as bad input, like these).
     fn check_inputs(&self, inputs: &Inputs) -> Vec<CalcError> {
         let _ = inputs;
         Vec::new()

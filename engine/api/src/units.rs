@@ -462,8 +462,7 @@ fn split_number(text: &str) -> Result<(f64, &str), QuantityError> {
     let end = text
         .char_indices()
         .map(|(i, c)| i + c.len_utf8())
-        .filter(|&i| text[..i].trim().parse::<f64>().is_ok())
-        .next_back()
+        .rfind(|&i| text[..i].trim().parse::<f64>().is_ok())
         .ok_or_else(|| QuantityError::BadNumber(text.to_string()))?;
     let number: f64 = text[..end].trim().parse().expect("prefix parsed above");
     // "1e" followed by a unit like "1 m" is fine; reject "12abc" where the

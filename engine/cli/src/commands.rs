@@ -21,7 +21,8 @@ pub(crate) struct Output {
 impl Output {
     pub(crate) fn say(&self, text: impl AsRef<str>) {
         if !self.quiet {
-            println!("{}", text.as_ref());
+            // A closed pipe (`packwright run | head`) is not an error.
+            let _ = writeln!(std::io::stdout(), "{}", text.as_ref());
         }
     }
 }
@@ -40,8 +41,17 @@ pub(crate) fn dispatch(command: Command, out: &Output) -> u8 {
         Command::Check { dir } => check(&dir, out),
         Command::Run { dir, strict, fresh } => run(&dir, strict, fresh, out).0,
         Command::Build { dir, strict, fresh } => build(&dir, strict, fresh, out),
+        Command::Issue { rev, dir, force } => issue(&dir, &rev, force, out),
+        Command::Diff {
+            dir,
+            since,
+            git,
+            tolerance,
+            json,
+        } => diff(&dir, since, git, tolerance, json, out),
         Command::Modules => modules(out),
         Command::Explain { module } => explain(&module),
+        Command::Schema => schema(),
     }
 }
 
@@ -67,6 +77,39 @@ pub(crate) fn report_error(root: &Path, error: &EngineError) -> u8 {
             FAILED
         }
     }
+}
+
+/// Run options with a progress bar on stderr when it is a terminal.
+fn run_options(fresh: bool, out: &Output) -> RunOptions {
+    use std::io::IsTerminal;
+    use std::sync::Arc;
+    let mut options = RunOptions {
+        fresh,
+        ..RunOptions::default()
+    };
+    if out.quiet || !std::io::stderr().is_terminal() {
+        return options;
+    }
+    let bar = indicatif::ProgressBar::hidden();
+    bar.set_style(
+        indicatif::ProgressStyle::with_template("{prefix} [{bar:30}] {pos}/{len} {msg}")
+            .expect("valid template")
+            .progress_chars("=> "),
+    );
+    bar.set_prefix("computing");
+    let on_plan = bar.clone();
+    options.on_plan = Some(Arc::new(move |n| {
+        on_plan.set_length(n as u64);
+        on_plan.set_draw_target(indicatif::ProgressDrawTarget::stderr());
+    }));
+    options.progress = Some(Arc::new(move |id: &str| {
+        bar.inc(1);
+        bar.set_message(id.to_string());
+        if bar.length() == Some(bar.position()) {
+            bar.finish_and_clear();
+        }
+    }));
+    options
 }
 
 fn check(dir: &Path, out: &Output) -> u8 {
@@ -98,7 +141,7 @@ pub(crate) fn run(
 ) {
     let registry = builtin::registry();
     let (project, outcome) =
-        match packwright_core::run_project(dir, &registry, RunOptions { fresh }) {
+        match packwright_core::run_project(dir, &registry, run_options(fresh, out)) {
             Ok(x) => x,
             Err(e) => return (report_error(dir, &e), None),
         };
@@ -359,5 +402,175 @@ fn explain(name: &str) -> u8 {
         }
     }
     let _ = std::io::stdout().write_all(s.as_bytes());
+    OK
+}
+
+fn issue(dir: &Path, rev: &str, force: bool, out: &Output) -> u8 {
+    let registry = builtin::registry();
+    match packwright_core::issued::issue(dir, &registry, rev, force, run_options(false, out)) {
+        Ok((project, outcome, path)) => {
+            out.say(format!(
+                "issued revision {rev} of {}: {} items recorded in {}",
+                project.meta.document,
+                outcome.items.len(),
+                path.strip_prefix(&project.root).unwrap_or(&path).display()
+            ));
+            OK
+        }
+        Err(e) => report_error(dir, &e),
+    }
+}
+
+fn diff(
+    dir: &Path,
+    since: Option<String>,
+    git: Option<String>,
+    tolerance: f64,
+    json: bool,
+    out: &Output,
+) -> u8 {
+    if !(tolerance.is_finite() && tolerance >= 0.0) {
+        eprintln!("error: --tolerance {tolerance} is not a relative tolerance");
+        eprintln!("  expected: a number at least 0, such as `--tolerance 1e-6`");
+        return BAD_INPUT;
+    }
+    let registry = builtin::registry();
+    let (project, plan) = match packwright_core::check(dir, &registry) {
+        Ok(x) => x,
+        Err(e) => return report_error(dir, &e),
+    };
+    let store = packwright_core::cache::Cache::open(&project.root);
+    let outcome = packwright_core::run::run(&plan, &registry, Some(&store));
+    if !outcome.failures.is_empty() || !outcome.skipped.is_empty() {
+        return report_error(
+            dir,
+            &EngineError::Calculation(outcome.failures, outcome.skipped),
+        );
+    }
+    let (label, baseline) = if let Some(git_ref) = &git {
+        match packwright_core::diff::at_git_ref(&project.root, git_ref) {
+            Ok(set) => (format!("git {git_ref}"), set),
+            Err(e) => {
+                eprintln!("error: {e}");
+                eprintln!("  expected: a commit, branch or tag whose tree holds this project's results/, such as `--git HEAD~1`");
+                return BAD_INPUT;
+            }
+        }
+    } else {
+        let records = match packwright_core::issued::all(&project) {
+            Ok(r) => r,
+            Err(e) => {
+                eprintln!("error: {e}");
+                return BAD_INPUT;
+            }
+        };
+        let wanted = since
+            .clone()
+            .or_else(|| records.last().map(|r| r.revision.clone()));
+        let Some(record) = wanted
+            .as_ref()
+            .and_then(|w| records.iter().find(|r| &r.revision == w))
+        else {
+            let known: Vec<&str> = records.iter().map(|r| r.revision.as_str()).collect();
+            eprintln!(
+                "error: {}",
+                match &since {
+                    Some(rev) =>
+                        format!("revision `{rev}` has not been issued (no issued/{rev}.yaml)"),
+                    None => "no revision has been issued yet, so there is nothing to compare with"
+                        .into(),
+                }
+            );
+            eprintln!(
+                "  expected: {}",
+                if known.is_empty() {
+                    "`packwright issue REV` first, or `--git REF` to compare with committed results"
+                        .to_string()
+                } else {
+                    format!("`--since` one of {}", known.join(", "))
+                }
+            );
+            return BAD_INPUT;
+        };
+        (
+            format!("revision {}", record.revision),
+            record.items.clone(),
+        )
+    };
+    let changes = packwright_core::diff::compare(
+        &baseline,
+        &packwright_core::diff::current(&outcome),
+        tolerance,
+    );
+    if json {
+        let doc =
+            serde_json::json!({ "baseline": label, "tolerance": tolerance, "changes": changes });
+        let _ = writeln!(
+            std::io::stdout(),
+            "{}",
+            serde_json::to_string_pretty(&doc).expect("serialisable")
+        );
+    } else if changes.is_empty() {
+        out.say(format!(
+            "no changes since {label} (relative tolerance {tolerance:e})"
+        ));
+    } else {
+        out.say(format!(
+            "changes since {label} (relative tolerance {tolerance:e}):"
+        ));
+        let rows: Vec<[String; 6]> = changes
+            .iter()
+            .map(|c| {
+                [
+                    c.item.clone(),
+                    c.kind.clone(),
+                    c.name.clone(),
+                    c.old.clone(),
+                    c.new.clone(),
+                    c.percent.map(|p| format!("{p:+.3} %")).unwrap_or_default(),
+                ]
+            })
+            .collect();
+        let header = ["item", "what", "name", "was", "now", "change"].map(String::from);
+        let widths: Vec<usize> = (0..6)
+            .map(|i| {
+                rows.iter()
+                    .chain([&header])
+                    .map(|r| r[i].chars().count())
+                    .max()
+                    .unwrap_or(0)
+            })
+            .collect();
+        for r in std::iter::once(&header).chain(rows.iter()) {
+            let cells: Vec<String> = r
+                .iter()
+                .enumerate()
+                .map(|(i, c)| format!("{c:<w$}", w = widths[i]))
+                .collect();
+            out.say(format!("  {}", cells.join("  ").trim_end()));
+        }
+        let items: std::collections::BTreeSet<&str> =
+            changes.iter().map(|c| c.item.as_str()).collect();
+        out.say(format!(
+            "{} change(s) in {} item(s)",
+            changes.len(),
+            items.len()
+        ));
+    }
+    if changes.is_empty() {
+        OK
+    } else {
+        FAILED
+    }
+}
+
+fn schema() -> u8 {
+    let registry = builtin::registry();
+    let schema = packwright_core::schema::item_schema(&registry);
+    let _ = writeln!(
+        std::io::stdout(),
+        "{}",
+        serde_json::to_string_pretty(&schema).expect("serialisable")
+    );
     OK
 }

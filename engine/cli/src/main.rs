@@ -69,6 +69,36 @@ pub(crate) enum Command {
         #[arg(long)]
         fresh: bool,
     },
+    /// Record the current inputs and results as revision REV in issued/REV.yaml.
+    Issue {
+        /// The revision mark; it must be the newest revision in project.yaml.
+        rev: String,
+        /// The project folder.
+        #[arg(default_value = ".")]
+        dir: PathBuf,
+        /// Replace an existing record of this revision.
+        #[arg(long)]
+        force: bool,
+    },
+    /// Show which inputs, results and checks changed since an issued
+    /// revision or a git commit; exit code 1 when anything changed.
+    Diff {
+        /// The project folder.
+        #[arg(default_value = ".")]
+        dir: PathBuf,
+        /// Compare with this issued revision (default: the newest issued).
+        #[arg(long, conflicts_with = "git")]
+        since: Option<String>,
+        /// Compare with the results committed at this git commit, branch or tag.
+        #[arg(long)]
+        git: Option<String>,
+        /// Relative difference below which two numbers count as equal.
+        #[arg(long, default_value_t = packwright_core::diff::DEFAULT_TOLERANCE)]
+        tolerance: f64,
+        /// Print the changes as JSON (for scripts).
+        #[arg(long)]
+        json: bool,
+    },
     /// List the modules packwright has.
     Modules,
     /// Print what a module needs and gives: inputs, outputs, method, references.
@@ -76,6 +106,8 @@ pub(crate) enum Command {
         /// The module name, as in `module:` of an item.
         module: String,
     },
+    /// Print a JSON Schema of item files, for editor validation and completion.
+    Schema,
 }
 
 fn main() -> ExitCode {

@@ -4,7 +4,10 @@
 use std::process::Command;
 
 fn packwright(args: &[&str]) -> std::process::Output {
-    Command::new(env!("CARGO_BIN_EXE_packwright")).args(args).output().expect("runs")
+    Command::new(env!("CARGO_BIN_EXE_packwright"))
+        .args(args)
+        .output()
+        .expect("runs")
 }
 
 #[test]
@@ -12,7 +15,10 @@ fn every_verb_has_help() {
     for verb in ["new", "check", "run", "build", "modules", "explain"] {
         let out = packwright(&[verb, "--help"]);
         assert!(out.status.success(), "{verb} --help");
-        assert!(String::from_utf8_lossy(&out.stdout).contains("Usage"), "{verb}");
+        assert!(
+            String::from_utf8_lossy(&out.stdout).contains("Usage"),
+            "{verb}"
+        );
     }
 }
 

@@ -13,13 +13,16 @@
 
 pub mod cache;
 pub mod diagnostic;
+pub mod diff;
 pub mod display;
 pub mod fsio;
+pub mod issued;
 pub mod project;
 pub mod registry;
 pub mod resolve;
 pub mod results;
 pub mod run;
+pub mod schema;
 pub mod yaml;
 
 use std::collections::BTreeMap;
@@ -103,11 +106,18 @@ pub fn key_outputs(registry: &Registry) -> BTreeMap<String, Vec<String>> {
         .collect()
 }
 
+/// Called with each item's id as it finishes.
+pub type Progress = std::sync::Arc<dyn Fn(&str) + Send + Sync>;
+
 /// Options of a run.
-#[derive(Debug, Clone, Copy, Default)]
+#[derive(Clone, Default)]
 pub struct RunOptions {
     /// Ignore the cache: compute every item.
     pub fresh: bool,
+    /// Told of each finished item (a progress bar).
+    pub progress: Option<Progress>,
+    /// Called once with the number of items, before any is computed.
+    pub on_plan: Option<std::sync::Arc<dyn Fn(usize) + Send + Sync>>,
 }
 
 /// Loads, validates and computes a project, then writes `results/` whole.
@@ -124,6 +134,32 @@ pub fn run_project(
         registry,
         if options.fresh { None } else { Some(&store) },
     );
+    let input_errors: Vec<Diagnostic> = outcome
+        .failures
+        .iter()
+        .filter_map(|f| match &f.error {
+            packwright_api::CalcError::Input {
+                input,
+                span,
+                message,
+                expected,
+            } => Some(
+                Diagnostic::new(
+                    span.clone().or_else(|| {
+                        plan.items
+                            .get(&f.item)
+                            .and_then(|i| i.inputs.span_of(input))
+                    }),
+                    format!("item `{}`, input `{input}`: {message}", f.item),
+                )
+                .expected(expected.clone()),
+            ),
+            _ => None,
+        })
+        .collect();
+    if !input_errors.is_empty() {
+        return Err(EngineError::BadInput(Diagnostics(input_errors)));
+    }
     if !outcome.failures.is_empty() || !outcome.skipped.is_empty() {
         return Err(EngineError::Calculation(outcome.failures, outcome.skipped));
     }

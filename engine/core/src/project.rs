@@ -287,6 +287,28 @@ fn read_inside(root: &Path, path: &Path, rel: &Arc<str>) -> Result<Vec<u8>, Diag
             "project files inside the project folder; copy the file in instead of linking it",
         ));
     }
+    // Look before reading: a device, a pipe or a huge file named `*.yaml`
+    // must not hang the tool or fill its memory.
+    let meta = std::fs::metadata(&real)
+        .map_err(|e| Diagnostic::new(here.clone(), format!("cannot read the file: {e}")))?;
+    if !meta.is_file() {
+        return Err(Diagnostic::new(
+            here,
+            "this is not a regular file (a device, pipe or socket)".into(),
+        )
+        .expected("a YAML text file, or no `.yaml` ending on anything else"));
+    }
+    if meta.len() > yaml::MAX_FILE_BYTES as u64 {
+        return Err(Diagnostic::new(
+            here,
+            format!(
+                "the file is {} bytes; packwright reads project files of at most {} bytes",
+                meta.len(),
+                yaml::MAX_FILE_BYTES
+            ),
+        )
+        .expected("one calculation item per file, a page or two of YAML"));
+    }
     std::fs::read(&real).map_err(|e| Diagnostic::new(here, format!("cannot read the file: {e}")))
 }
 
@@ -386,6 +408,26 @@ pub fn load(root: &Path) -> Result<(Project, Diagnostics), Diagnostics> {
         };
         let path = entry.path();
         let ext = path.extension().and_then(|e| e.to_str()).unwrap_or("");
+        // A linked folder is not followed (it could loop or duplicate
+        // items), but one that leads out of the project is an error rather
+        // than silently missing files.
+        if entry.path_is_symlink() && entry.depth() > 0 {
+            if let Ok(real) = path.canonicalize() {
+                if real.is_dir() && !real.starts_with(&root) {
+                    out.push(
+                        Diagnostic::new(
+                            Some(Span::new(relative(&root, path), 1, 1)),
+                            format!(
+                                "this folder is a link to {}, outside the project folder",
+                                real.display()
+                            ),
+                        )
+                        .expected("project files inside the project folder; copy the folder in instead of linking it"),
+                    );
+                    continue;
+                }
+            }
+        }
         if !(ext == "yaml" || ext == "yml") || entry.file_type().is_dir() || entry.depth() == 0 {
             continue;
         }
@@ -557,6 +599,23 @@ fn parse_meta(node: &Node, out: &mut Diagnostics) -> Option<ProjectMeta> {
                         continue;
                     };
                     let rev = rf.text("rev", true, "A", out);
+                    // The revision mark is part of the package's file name.
+                    if let Some(r) = &rev {
+                        let fits = !r.is_empty()
+                            && r.len() <= 16
+                            && r.chars()
+                                .all(|c| c.is_ascii_alphanumeric() || matches!(c, '-' | '_' | '.'))
+                            && !r.starts_with('.');
+                        if !fits {
+                            out.push(
+                                Diagnostic::new(
+                                    rf.get("rev").map(|n| n.span.clone()),
+                                    format!("revision mark `{r}` cannot stand in the package's file name"),
+                                )
+                                .expected("letters, digits, `-`, `_` and `.` (not first), at most 16 characters, such as `A`, `B` or `0`"),
+                            );
+                        }
+                    }
                     let date = rf.text("date", true, "2026-10-14", out);
                     if let Some(d) = &date {
                         if !valid_date(d) {
@@ -711,9 +770,11 @@ fn parse_item(node: &Node, file: Arc<str>, out: &mut Diagnostics) -> Option<Item
         module: module?,
         title: title.unwrap_or_else(|| id.clone()),
         id,
-        inputs_span: f
-            .get("inputs")
-            .map(|n| n.span.clone())
+        // The `inputs` key itself: a missing input is reported there.
+        inputs_span: node
+            .as_map()
+            .and_then(|entries| entries.iter().find(|(k, _)| k.as_text() == Some("inputs")))
+            .map(|(k, _)| k.span.clone())
             .unwrap_or_else(|| node.span.clone()),
         inputs,
         criteria,

@@ -88,8 +88,31 @@ fn diag_from_calc(err: CalcError, item: &ItemFile) -> Diagnostic {
     }
 }
 
-/// Reads one written value for an input of the given spec.
+/// Largest magnitude, in SI coherent units, that an input may have. No
+/// quantity in bulk handling or lifting comes near it (a rope modulus is
+/// about 1e11 Pa), and squares and products of values below it stay far
+/// from overflowing a double.
+pub const MAX_INPUT_MAGNITUDE: f64 = 1e15;
+
+/// Reads one written value for an input of the given spec, refusing
+/// magnitudes no real plant has.
 fn read_value(spec: &InputSpec, node: &Node) -> Result<Value, String> {
+    let value = read_value_unchecked(spec, node)?;
+    let magnitude = match &value {
+        Value::Quantity { value, .. } | Value::Number(value) => value.abs(),
+        Value::Count(n) => *n as f64,
+        _ => 0.0,
+    };
+    if magnitude > MAX_INPUT_MAGNITUDE {
+        return Err(format!(
+            "`{}` is {magnitude:e} in SI units, beyond any physical value packwright calculates with (at most {MAX_INPUT_MAGNITUDE:e})",
+            written_text(node)
+        ));
+    }
+    Ok(value)
+}
+
+fn read_value_unchecked(spec: &InputSpec, node: &Node) -> Result<Value, String> {
     if let InputKind::Structured { .. } = spec.kind {
         return Ok(Value::Structured(node.clone()));
     }
@@ -164,7 +187,7 @@ fn link_of(node: &Node) -> Option<Result<(String, String, Span, String), Diagnos
         )
         .expected("`{ from: TC-02.exit_speed_along_belt }`")));
     }
-    let text = value.as_text().unwrap_or_default().to_string();
+    let text = written_text(value);
     match text.split_once('.') {
         Some((item, output)) if !item.is_empty() && !output.is_empty() => Some(Ok((
             item.to_string(),
@@ -194,6 +217,11 @@ fn resolve_item(
     let mut links = Vec::new();
     let mut materials = Vec::new();
     let names: Vec<&str> = decl.inputs.iter().map(|i| i.name.as_str()).collect();
+    // Inputs written with a bad value, and whether a material could not be
+    // used: neither is also reported as "missing", which it is not (or may
+    // not be, once the material is put right).
+    let mut written_bad: BTreeSet<String> = BTreeSet::new();
+    let mut material_failed = false;
 
     for (key, node) in &item.inputs {
         let name = key.as_text().unwrap_or_default();
@@ -223,6 +251,7 @@ fn resolve_item(
             continue;
         }
         if node.value == NodeValue::Null {
+            written_bad.insert(name.to_string());
             out.push(
                 Diagnostic::new(Some(node.span.clone()), format!("`{name}` has no value"))
                     .expected(format!("`{name}:` followed by {}", kind_words(spec))),
@@ -245,13 +274,16 @@ fn resolve_item(
                     },
                 );
             }
-            Err(message) => out.push(
-                Diagnostic::new(
-                    Some(node.span.clone()),
-                    format!("item `{}`: {message}", item.id),
+            Err(message) => {
+                written_bad.insert(name.to_string());
+                out.push(
+                    Diagnostic::new(
+                        Some(node.span.clone()),
+                        format!("item `{}`: {message}", item.id),
+                    )
+                    .expected(format!("`{name}:` {}", kind_words(spec))),
                 )
-                .expected(format!("`{name}:` {}", kind_words(spec))),
-            ),
+            }
         }
     }
 
@@ -279,9 +311,11 @@ fn resolve_item(
                 d.message.push_str(&format!(" (did you mean `{best}`?)"));
             }
             out.push(d);
+            material_failed = true;
             continue;
         };
         if &material.kind != material_kind {
+            material_failed = true;
             out.push(
                 Diagnostic::new(
                     span,
@@ -312,16 +346,19 @@ fn resolve_item(
                         },
                     );
                 }
-                Err(message) => out.push(
-                    Diagnostic::new(
-                        Some(node.span.clone()),
-                        format!(
-                            "material `{id}`, property `{prop}` (used by item `{}`): {message}",
-                            item.id
-                        ),
+                Err(message) => {
+                    written_bad.insert(prop.clone());
+                    out.push(
+                        Diagnostic::new(
+                            Some(node.span.clone()),
+                            format!(
+                                "material `{id}`, property `{prop}` (used by item `{}`): {message}",
+                                item.id
+                            ),
+                        )
+                        .expected(format!("`{prop}:` {}", kind_words(spec))),
                     )
-                    .expected(format!("`{prop}:` {}", kind_words(spec))),
-                ),
+                }
             }
         }
     }
@@ -349,6 +386,7 @@ fn resolve_item(
                 )),
             },
             Need::Optional => {}
+            Need::Required if written_bad.contains(&spec.name) || material_failed => {}
             Need::Required => out.push(
                 Diagnostic::new(
                     Some(item.inputs_span.clone()),
@@ -485,10 +523,10 @@ fn resolve_item(
                     ),
                 )
                 .related(target.id_span.clone(), "the linked item")
-                .expected(format!(
-                    "a link to an output that is {}",
-                    output.dimension.describe()
-                )),
+                .expected(match spec.kind.dimension() {
+                    Some(dim) => format!("a link to an output that is {}", dim.describe()),
+                    None => format!("`{}:` {}, written out", link.input, kind_words(spec)),
+                }),
             ),
         }
         if link.item == item.id {
@@ -507,7 +545,8 @@ fn resolve_item(
         values,
         criteria,
     };
-    if out.0.len() == before {
+    // Linked values are not known yet: such items are validated as they run.
+    if out.0.len() == before && links.is_empty() {
         let module = &registry.get(&decl.name).expect("registered").module;
         for e in module.check_inputs(&inputs) {
             out.push(diag_from_calc(e, item));

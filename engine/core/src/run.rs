@@ -255,6 +255,17 @@ fn fill_links(item: &PlannedItem, done: &BTreeMap<String, ItemRun>) -> Option<In
 /// parallel. An item whose linked item failed is skipped. `store`, when
 /// given, supplies earlier outcomes for unchanged digests.
 pub fn run(plan: &Plan, registry: &Registry, store: Option<&dyn OutcomeStore>) -> RunOutcome {
+    run_with_progress(plan, registry, store, None)
+}
+
+/// [`run`], calling `progress` with each item's id as it finishes (for a
+/// progress bar; called from worker threads).
+pub fn run_with_progress(
+    plan: &Plan,
+    registry: &Registry,
+    store: Option<&dyn OutcomeStore>,
+    progress: Option<&(dyn Fn(&str) + Sync)>,
+) -> RunOutcome {
     let mut result = RunOutcome::default();
     for level in &plan.levels {
         let done = Mutex::new(Vec::new());
@@ -262,6 +273,7 @@ pub fn run(plan: &Plan, registry: &Registry, store: Option<&dyn OutcomeStore>) -
         let skipped = Mutex::new(Vec::new());
         level.par_iter().for_each(|id| {
             let item = &plan.items[id];
+            let _tick = Tick(progress, id);
             let Some(inputs) = fill_links(item, &result.items) else {
                 skipped.lock().expect("not poisoned").push(id.clone());
                 return;
@@ -310,6 +322,17 @@ pub fn run(plan: &Plan, registry: &Registry, store: Option<&dyn OutcomeStore>) -
     result.failures.sort_by(|a, b| a.item.cmp(&b.item));
     result.skipped.sort();
     result
+}
+
+/// Reports an item as finished when dropped, whichever way it finished.
+struct Tick<'a>(Option<&'a (dyn Fn(&str) + Sync)>, &'a str);
+
+impl Drop for Tick<'_> {
+    fn drop(&mut self) {
+        if let Some(progress) = self.0 {
+            progress(self.1);
+        }
+    }
 }
 
 /// Computes one item, turning a panic inside a module into a contract error

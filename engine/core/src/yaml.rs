@@ -27,6 +27,7 @@ pub const MAX_FILE_BYTES: usize = 1 << 20;
 pub fn parse(file: &Arc<str>, text: &str) -> Result<Option<Node>, Diagnostic> {
     let mut reader = Reader {
         file: file.clone(),
+        text,
         parser: Parser::new_from_str(text),
         depth: 0,
     };
@@ -46,6 +47,9 @@ pub fn parse_bytes(file: &Arc<str>, bytes: &[u8]) -> Result<Option<Node>, Diagno
         )
         .expected("one calculation item per file, a page or two of YAML"));
     }
+    // Editors on Windows may save UTF-8 with a byte-order mark; it is not
+    // part of the text, and left in it would glue itself to the first key.
+    let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
     let text = std::str::from_utf8(bytes).map_err(|e| {
         let before = &bytes[..e.valid_up_to()];
         let line = before.iter().filter(|&&b| b == b'\n').count() as u32 + 1;
@@ -59,8 +63,23 @@ pub fn parse_bytes(file: &Arc<str>, bytes: &[u8]) -> Result<Option<Node>, Diagno
     parse(file, text)
 }
 
+/// Where the offending tab is: the scanner reports the start of the token
+/// it was reading, which may be lines above the tab itself.
+fn tab_position(text: &str, from_line: usize) -> Option<(u32, u32)> {
+    text.lines()
+        .enumerate()
+        .skip(from_line.saturating_sub(1))
+        .find_map(|(i, line)| {
+            let indent = &line[..line.len() - line.trim_start().len()];
+            indent
+                .find('\t')
+                .map(|byte| (i as u32 + 1, indent[..byte].chars().count() as u32 + 1))
+        })
+}
+
 struct Reader<'a> {
     file: Arc<str>,
+    text: &'a str,
     parser: Parser<std::str::Chars<'a>>,
     depth: usize,
 }
@@ -74,16 +93,23 @@ impl Reader<'_> {
         self.parser.next_token().map_err(|e| {
             let mark = *e.marker();
             let info = e.info().to_string();
+            let mut span = self.span(&mark);
+            if info.contains("recursion limit") {
+                return Diagnostic::new(
+                    Some(span),
+                    format!("the YAML nests deeper than {MAX_DEPTH} levels"),
+                )
+                .expected("a flat item file: `inputs:` with one value per key");
+            }
             let hint = if info.contains("tab") {
+                if let Some((line, column)) = tab_position(self.text, mark.line()) {
+                    span = Span::new(self.file.clone(), line, column);
+                }
                 "indent with spaces; YAML does not allow tabs for indentation"
             } else {
                 "check the indentation and that every `key: value` pair has a space after the colon"
             };
-            Diagnostic::new(
-                Some(self.span(&mark)),
-                format!("this is not valid YAML: {info}"),
-            )
-            .expected(hint)
+            Diagnostic::new(Some(span), format!("this is not valid YAML: {info}")).expected(hint)
         })
     }
 
@@ -176,6 +202,10 @@ impl Reader<'_> {
                 self.refuse_tag(tag.is_some(), &mark)?;
                 self.enter(&mark)?;
                 let mut entries: Vec<(Node, Node)> = Vec::new();
+                // Key -> line of its first use: a file of many keys must not
+                // cost a search of all earlier keys per key.
+                let mut seen: std::collections::HashMap<String, u32> =
+                    std::collections::HashMap::new();
                 loop {
                     let (event, mark) = self.next()?;
                     if matches!(event, Event::MappingEnd) {
@@ -192,18 +222,16 @@ impl Reader<'_> {
                             .expected("`belt_speed: 4.5 m/s`"))
                         }
                     };
-                    if let Some((earlier, _)) =
-                        entries.iter().find(|(k, _)| k.as_text() == Some(&key_text))
-                    {
+                    if let Some(first_line) = seen.get(&key_text) {
                         return Err(Diagnostic::new(
                             Some(key.span.clone()),
                             format!(
-                                "`{key_text}` is given twice in this mapping (first at line {})",
-                                earlier.span.line
+                                "`{key_text}` is given twice in this mapping (first at line {first_line})"
                             ),
                         )
                         .expected("each key once; delete one of the two"));
                     }
+                    seen.insert(key_text, key.span.line);
                     let (event, mark) = self.next()?;
                     let value = self.value(event, mark)?;
                     entries.push((key, value));
@@ -301,6 +329,17 @@ mod tests {
         assert_eq!(dup.span.unwrap().line, 3);
         let tab = p("a:\n\tb: 1\n").unwrap_err();
         assert!(tab.message.contains("not valid YAML"));
+        let tab = p("id: A\ninputs:\n  a: 1 m\n\tb: 2 m\n").unwrap_err();
+        let at = tab.span.unwrap();
+        assert_eq!(
+            (at.line, at.column),
+            (4, 1),
+            "the tab itself, not the token before"
+        );
+        let bom = parse_bytes(&Arc::from("t.yaml"), b"\xEF\xBB\xBFid: A\n")
+            .unwrap()
+            .unwrap();
+        assert_eq!(bom.get("id").unwrap().as_text(), Some("A"));
         let deep = "[".repeat(100) + &"]".repeat(100);
         assert!(p(&deep).unwrap_err().message.contains("deeper"));
         assert!(p("a: 1\n---\nb: 2\n")

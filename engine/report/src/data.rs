@@ -32,6 +32,28 @@ pub struct ChangeRow {
     pub change: String,
 }
 
+impl Review {
+    /// The package's view of the engine's review state: numbers as text.
+    pub fn from_state(state: &packwright_core::issued::ReviewState) -> Review {
+        Review {
+            changes_since: state.baseline.clone(),
+            changes: state
+                .changes
+                .iter()
+                .map(|c| ChangeRow {
+                    item: c.item.clone(),
+                    kind: c.kind.clone(),
+                    name: c.name.clone(),
+                    old: c.old.clone(),
+                    new: c.new.clone(),
+                    change: c.percent.map(|p| format!("{p:+.2} %")).unwrap_or_default(),
+                })
+                .collect(),
+            stale: state.stale.clone(),
+        }
+    }
+}
+
 /// Review information the package shows (from issued revisions).
 #[derive(Debug, Clone, Default, Serialize, PartialEq)]
 pub struct Review {
