@@ -30,8 +30,18 @@ fn registry() -> Registry {
     registry
 }
 
+/// The schema for any project.
 fn validator() -> jsonschema::Validator {
     let schema = packwright_core::schema::item_schema(&registry());
+    jsonschema::draft202012::new(&schema).expect("the generated schema is a valid 2020-12 schema")
+}
+
+/// The schema that knows the demo's materials.
+fn demo_validator() -> jsonschema::Validator {
+    let (project, problems) = packwright_core::project::load(&demo()).expect("the demo loads");
+    assert!(problems.is_empty(), "{problems}");
+    let schema =
+        packwright_core::schema::item_schema_with_materials(&registry(), &project.materials);
     jsonschema::draft202012::new(&schema).expect("the generated schema is a valid 2020-12 schema")
 }
 
@@ -93,7 +103,12 @@ fn errors(validator: &jsonschema::Validator, item: &Value) -> Vec<String> {
 
 #[test]
 fn every_demo_item_satisfies_the_schema() {
-    let validator = validator();
+    for validator in [validator(), demo_validator()] {
+        every_demo_item_satisfies(&validator);
+    }
+}
+
+fn every_demo_item_satisfies(validator: &jsonschema::Validator) {
     let items = demo_items();
     assert!(
         items.len() >= 10,
@@ -110,7 +125,7 @@ fn every_demo_item_satisfies_the_schema() {
         "the demo uses every module"
     );
     for (file, item) in &items {
-        let found = errors(&validator, item);
+        let found = errors(validator, item);
         assert!(found.is_empty(), "{file}: {found:#?}");
     }
 }
@@ -176,7 +191,8 @@ fn copy_tree(from: &Path, to: &Path) {
 
 #[test]
 fn bad_items_fail_the_schema_and_the_engine() {
-    let validator = validator();
+    let validator = demo_validator();
+    let any_project = self::validator();
     let (file, good) = belt_item();
     assert!(errors(&validator, &good).is_empty());
     let cases: Vec<(&str, Box<dyn Fn(&mut Value)>)> = vec![
@@ -238,6 +254,14 @@ fn bad_items_fail_the_schema_and_the_engine() {
             "null input",
             Box::new(|v| v["inputs"]["belt_speed"] = Value::Null),
         ),
+        (
+            "unknown material",
+            Box::new(|v| v["inputs"]["material"] = json!("iron-ore-fine")),
+        ),
+        (
+            "material of the wrong kind",
+            Box::new(|v| v["inputs"]["material"] = json!("g8-16-hoist-chain")),
+        ),
     ];
     for (what, spoil) in &cases {
         let mut bad = good.clone();
@@ -245,6 +269,14 @@ fn bad_items_fail_the_schema_and_the_engine() {
         assert!(
             !validator.is_valid(&bad),
             "{what}: the schema accepted {bad}"
+        );
+        // Without the project's materials the schema cannot know which
+        // inputs a material fills, nor which materials exist.
+        let needs_materials = what.contains("material") || *what == "missing required input";
+        assert_eq!(
+            any_project.is_valid(&bad),
+            needs_materials,
+            "{what}: the schema for any project"
         );
         engine_rejects(&file, &bad);
     }
@@ -277,6 +309,14 @@ fn bad_choices_and_kinds_fail_in_other_modules() {
             &hoist_file,
             hoist.clone(),
             Box::new(|v| v["inputs"]["falls"] = json!(2.5)),
+        ),
+        (
+            "missing required quantity",
+            &hoist_file,
+            hoist.clone(),
+            Box::new(|v| {
+                v["inputs"].as_object_mut().unwrap().remove("hoisted_mass");
+            }),
         ),
         (
             "missing required choice",

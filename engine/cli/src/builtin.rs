@@ -3,8 +3,10 @@
 
 use std::sync::Arc;
 
+use std::path::Path;
+
 use packwright_api::Module;
-use packwright_core::{ModuleOrigin, Registry};
+use packwright_core::{Diagnostic, ModuleOrigin, Registry};
 
 /// Every module compiled into the binary.
 pub fn modules() -> Vec<Arc<dyn Module>> {
@@ -26,4 +28,20 @@ pub fn registry() -> Registry {
             .expect("built-in modules are declared correctly (their tests check it)");
     }
     registry
+}
+
+/// The built-in modules plus the external modules of the project at
+/// `project_root` (its `modules/*/module.yaml` and those named in
+/// project.yaml). A folder without project.yaml gets the built-ins only.
+pub fn registry_for(project_root: &Path) -> Result<Registry, Vec<Diagnostic>> {
+    let mut registry = registry();
+    if !project_root.join("project.yaml").is_file() {
+        return Ok(registry);
+    }
+    // A project.yaml that does not load is reported by the run itself.
+    let named = packwright_core::project::load(project_root)
+        .map(|(project, _)| project.meta.modules)
+        .unwrap_or_default();
+    packwright_external::register(&mut registry, project_root, &named)?;
+    Ok(registry)
 }

@@ -49,8 +49,8 @@ pub(crate) fn dispatch(command: Command, out: &Output) -> u8 {
             tolerance,
             json,
         } => diff(&dir, since, git, tolerance, json, out),
-        Command::Modules => modules(out),
-        Command::Explain { module } => explain(&module),
+        Command::Modules { dir } => modules(&dir, out),
+        Command::Explain { module, dir } => explain(&module, &dir),
         Command::Schema => schema(),
     }
 }
@@ -112,8 +112,19 @@ fn run_options(fresh: bool, out: &Output) -> RunOptions {
     options
 }
 
+/// The registry for a project: built-ins and the project's external
+/// modules; a bad manifest is bad input.
+fn registry_for(dir: &Path) -> Result<packwright_core::Registry, u8> {
+    builtin::registry_for(dir).map_err(|problems| {
+        report_error(dir, &EngineError::BadInput(packwright_core::Diagnostics(problems)))
+    })
+}
+
 fn check(dir: &Path, out: &Output) -> u8 {
-    let registry = builtin::registry();
+    let registry = match registry_for(dir) {
+        Ok(r) => r,
+        Err(code) => return code,
+    };
     match packwright_core::check(dir, &registry) {
         Ok((project, plan)) => {
             out.say(format!(
@@ -139,7 +150,10 @@ pub(crate) fn run(
     u8,
     Option<(packwright_core::Project, packwright_core::RunOutcome)>,
 ) {
-    let registry = builtin::registry();
+    let registry = match registry_for(dir) {
+        Ok(r) => r,
+        Err(code) => return (code, None),
+    };
     let (project, outcome) =
         match packwright_core::run_project(dir, &registry, run_options(fresh, out)) {
             Ok(x) => x,
@@ -273,13 +287,27 @@ fn build(dir: &Path, strict: bool, fresh: bool, out: &Output) -> u8 {
     let Some((project, outcome)) = ran else {
         return code;
     };
-    let registry = builtin::registry();
-    match packwright_report::build_and_write(
+    let registry = match registry_for(dir) {
+        Ok(r) => r,
+        Err(code) => return code,
+    };
+    let state = match packwright_core::issued::review(
         &project,
         &outcome,
-        &registry,
-        &packwright_report::Review::default(),
+        packwright_core::diff::DEFAULT_TOLERANCE,
     ) {
+        Ok(s) => s,
+        Err(e) => {
+            eprintln!("error: {e}");
+            eprintln!("  expected: issued/ records written by `packwright issue`; restore the file from git or remove it");
+            return BAD_INPUT;
+        }
+    };
+    if let Some(stale) = &state.stale {
+        eprintln!("warning: {stale}; the package says so on every page.");
+    }
+    let review = packwright_report::Review::from_state(&state);
+    match packwright_report::build_and_write(&project, &outcome, &registry, &review) {
         Ok(written) => {
             out.say(format!(
                 "package: {} ({} pages)",
@@ -303,8 +331,11 @@ fn build(dir: &Path, strict: bool, fresh: bool, out: &Output) -> u8 {
     }
 }
 
-fn modules(out: &Output) -> u8 {
-    let registry = builtin::registry();
+fn modules(dir: &Path, out: &Output) -> u8 {
+    let registry = match registry_for(dir) {
+        Ok(r) => r,
+        Err(code) => return code,
+    };
     let width = registry.names().map(str::len).max().unwrap_or(0);
     for r in registry.iter() {
         let origin = match &r.origin {
@@ -319,8 +350,11 @@ fn modules(out: &Output) -> u8 {
     OK
 }
 
-fn explain(name: &str) -> u8 {
-    let registry = builtin::registry();
+fn explain(name: &str, dir: &Path) -> u8 {
+    let registry = match registry_for(dir) {
+        Ok(r) => r,
+        Err(code) => return code,
+    };
     let Some(r) = registry.get(name) else {
         let known: Vec<&str> = registry.names().collect();
         eprintln!("error: there is no module `{name}`");
@@ -406,7 +440,10 @@ fn explain(name: &str) -> u8 {
 }
 
 fn issue(dir: &Path, rev: &str, force: bool, out: &Output) -> u8 {
-    let registry = builtin::registry();
+    let registry = match registry_for(dir) {
+        Ok(r) => r,
+        Err(code) => return code,
+    };
     match packwright_core::issued::issue(dir, &registry, rev, force, run_options(false, out)) {
         Ok((project, outcome, path)) => {
             out.say(format!(
@@ -434,7 +471,10 @@ fn diff(
         eprintln!("  expected: a number at least 0, such as `--tolerance 1e-6`");
         return BAD_INPUT;
     }
-    let registry = builtin::registry();
+    let registry = match registry_for(dir) {
+        Ok(r) => r,
+        Err(code) => return code,
+    };
     let (project, plan) = match packwright_core::check(dir, &registry) {
         Ok(x) => x,
         Err(e) => return report_error(dir, &e),
@@ -565,7 +605,11 @@ fn diff(
 }
 
 fn schema() -> u8 {
-    let registry = builtin::registry();
+    // The built-ins, and the external modules of a project in the current folder.
+    let registry = match registry_for(Path::new(".")) {
+        Ok(r) => r,
+        Err(code) => return code,
+    };
     let schema = packwright_core::schema::item_schema(&registry);
     let _ = writeln!(
         std::io::stdout(),

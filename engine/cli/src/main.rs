@@ -99,12 +99,19 @@ pub(crate) enum Command {
         #[arg(long)]
         json: bool,
     },
-    /// List the modules packwright has.
-    Modules,
+    /// List the modules packwright has: built in, and the project's external ones.
+    Modules {
+        /// A project folder whose external modules to list too.
+        #[arg(default_value = ".")]
+        dir: PathBuf,
+    },
     /// Print what a module needs and gives: inputs, outputs, method, references.
     Explain {
         /// The module name, as in `module:` of an item.
         module: String,
+        /// A project folder whose external modules count too.
+        #[arg(default_value = ".")]
+        dir: PathBuf,
     },
     /// Print a JSON Schema of item files, for editor validation and completion.
     Schema,

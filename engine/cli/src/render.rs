@@ -10,14 +10,17 @@ use codespan_reporting::term::{emit_into_string, Config};
 use packwright_api::Span;
 use packwright_core::Diagnostic;
 
+/// Largest file whose lines are shown; the loader refuses bigger ones.
+const MAX_SHOWN_BYTES: u64 = packwright_core::yaml::MAX_FILE_BYTES as u64;
+
 /// Byte range of a one-line span (line and column count from 1; the
-/// column counts characters).
-fn byte_range(text: &str, span: &Span) -> Option<std::ops::Range<usize>> {
-    let line_start: usize = text
-        .split_inclusive('\n')
-        .take(span.line.saturating_sub(1) as usize)
-        .map(str::len)
-        .sum();
+/// column counts characters). `line_starts` holds the byte offset of every
+/// line, so that many problems in one large file cost no rescanning.
+fn byte_range(text: &str, line_starts: &[usize], span: &Span) -> Option<std::ops::Range<usize>> {
+    let line_start = line_starts
+        .get(span.line.saturating_sub(1) as usize)
+        .copied()
+        .unwrap_or(text.len());
     let line = text[line_start..].lines().next().unwrap_or("");
     let col = (span.column.max(1) - 1) as usize;
     let start = line_start
@@ -32,10 +35,25 @@ fn byte_range(text: &str, span: &Span) -> Option<std::ops::Range<usize>> {
     Some(start..(start + len).min(text.len().max(start)))
 }
 
+/// The text of a project file for showing its lines: only a regular file
+/// of readable size inside the project (a link out of the tree must not
+/// have its target printed).
+fn shown_text(root: &Path, rel: &str) -> Option<String> {
+    let root = root.canonicalize().ok()?;
+    let real = root.join(rel).canonicalize().ok()?;
+    let meta = std::fs::metadata(&real).ok()?;
+    if !real.starts_with(&root) || !meta.is_file() || meta.len() > MAX_SHOWN_BYTES {
+        return None;
+    }
+    let bytes = std::fs::read(&real).ok()?;
+    Some(String::from_utf8_lossy(&bytes).into_owned())
+}
+
 /// Renders problems found in the project at `root` as text.
 pub(crate) fn diagnostics(root: &Path, problems: &[Diagnostic]) -> String {
     let mut files = SimpleFiles::new();
     let mut ids = std::collections::BTreeMap::new();
+    let mut line_starts: std::collections::BTreeMap<usize, Vec<usize>> = Default::default();
     let spans = problems
         .iter()
         .flat_map(|d| d.span.iter().chain(d.related.iter().map(|(s, _)| s)));
@@ -43,9 +61,13 @@ pub(crate) fn diagnostics(root: &Path, problems: &[Diagnostic]) -> String {
         if ids.contains_key(&span.file) {
             continue;
         }
-        if let Ok(bytes) = std::fs::read(root.join(&*span.file)) {
-            let text = String::from_utf8_lossy(&bytes).into_owned();
-            ids.insert(span.file.clone(), files.add(span.file.to_string(), text));
+        if let Some(text) = shown_text(root, &span.file) {
+            let starts = std::iter::once(0)
+                .chain(text.match_indices('\n').map(|(i, _)| i + 1))
+                .collect();
+            let id = files.add(span.file.to_string(), text);
+            line_starts.insert(id, starts);
+            ids.insert(span.file.clone(), id);
         }
     }
     let file_id = |span: &Span| ids.get(&span.file).copied();
@@ -63,7 +85,8 @@ pub(crate) fn diagnostics(root: &Path, problems: &[Diagnostic]) -> String {
             match file_id(span) {
                 Some(id) => {
                     let range =
-                        byte_range(files.get(id).expect("added").source(), span).unwrap_or(0..0);
+                        byte_range(files.get(id).expect("added").source(), &line_starts[&id], span)
+                            .unwrap_or(0..0);
                     let label = if i == 0 {
                         Label::primary(id, range)
                     } else {
@@ -71,6 +94,8 @@ pub(crate) fn diagnostics(root: &Path, problems: &[Diagnostic]) -> String {
                     };
                     labels.push(label.with_message(note));
                 }
+                // The primary place is named in the message already.
+                None if i == 0 => {}
                 None => notes.push(format!("at {span} {note}")),
             }
         }

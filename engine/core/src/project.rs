@@ -435,6 +435,13 @@ pub fn load(root: &Path) -> Result<(Project, Diagnostics), Diagnostics> {
         if &*rel == "project.yaml" {
             continue;
         }
+        // An external module's manifest named in project.yaml is not an item.
+        if meta.modules.iter().any(|m| {
+            let m = m.trim().trim_start_matches("./").trim_end_matches('/');
+            &*rel == m || *rel == *format!("{m}/module.yaml")
+        }) {
+            continue;
+        }
         if entry.path_is_symlink() && path.is_dir() {
             continue;
         }

@@ -109,7 +109,7 @@ impl std::fmt::Display for SimError {
 }
 
 const OUTPUT_POINTS: usize = 400;
-const MAX_STEPS: usize = 20_000_000;
+const MAX_STEPS: usize = 2_000_000;
 const MAX_EVENTS: usize = 100_000;
 const RTOL: f64 = 1e-10;
 
@@ -396,6 +396,16 @@ impl Model {
         let dt_out = t_end / OUTPUT_POINTS as f64;
         let h_max = (self.period() / 40.0).min(dt_out);
         let h_min = 1e-14 * t_end.max(1e-9);
+        // The airborne part needs at least this many steps; say so at once
+        // rather than after minutes of stepping (an absurd ramp time).
+        let airborne_from = if start_grounded {
+            self.liftoff_after(0.0, t_end).unwrap_or(t_end)
+        } else {
+            0.0
+        };
+        if (t_end - airborne_from) / h_max > MAX_STEPS as f64 {
+            return Err(SimError::TooManySteps);
+        }
         let mut t = 0.0;
         let mut st: State = [0.0, 0.0];
         let mut grounded = start_grounded;
