@@ -19,7 +19,7 @@ use packwright_core::{EngineError, ModuleOrigin, Registry};
 /// finite, and `parse_expecting` agrees with `parse_quantity` for every
 /// dimension (it accepts exactly the texts whose unit is of that
 /// dimension, and gives the same value).
-pub fn quantity(text: &str) {
+pub(crate) fn quantity(text: &str) {
     let parsed = parse_quantity(text);
     match &parsed {
         Ok(q) => assert!(q.value_si.is_finite(), "{text:?} gave {q:?}"),
@@ -43,7 +43,7 @@ pub fn quantity(text: &str) {
 }
 
 /// The built-in modules, registered as the binary registers them.
-pub fn registry() -> Registry {
+pub(crate) fn registry() -> Registry {
     let modules: Vec<Arc<dyn Module>> = vec![
         Arc::new(packwright_belt_pickup::BeltPickup),
         Arc::new(packwright_chute_discharge::ChuteDischarge),
@@ -62,16 +62,16 @@ pub fn registry() -> Registry {
 
 /// A small valid project (one bulk material, one chain) that the item
 /// check writes its one item file into.
-pub struct Scratch {
+pub(crate) struct Scratch {
     _dir: tempfile::TempDir,
     /// The project root.
-    pub root: PathBuf,
+    pub(crate) root: PathBuf,
     registry: Registry,
 }
 
 impl Scratch {
     /// Makes the project folder.
-    pub fn new() -> Scratch {
+    pub(crate) fn new() -> Scratch {
         let dir = tempfile::tempdir().expect("temporary folder");
         let root = dir.path().to_path_buf();
         std::fs::create_dir_all(root.join("materials")).unwrap();
@@ -109,7 +109,7 @@ impl Default for Scratch {
 /// The item loader on any bytes: the YAML reader and the whole check of a
 /// project whose one item file holds them never panic, and every problem
 /// points at a line and column of a file of the project.
-pub fn item(bytes: &[u8], scratch: &Scratch) {
+pub(crate) fn item(bytes: &[u8], scratch: &Scratch) {
     let file: Arc<str> = Arc::from("item.yaml");
     match packwright_core::yaml::parse_bytes(&file, bytes) {
         Ok(Some(node)) => spans_inside(&node, &file),

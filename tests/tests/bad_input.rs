@@ -277,7 +277,7 @@ fn cases() -> Vec<Case> {
         case("document number that is a path", vec![("project.yaml", edit(PROJECT, "TEST-001", "../../etc/x"))], ("project.yaml", 2), &["cannot stand in a file name", "expected: letters, digits"]),
         case("revision mark that leaves package/", vec![("project.yaml", edit(PROJECT, "rev: A", "rev: ../../../escaped"))], ("project.yaml", 7), &["revision mark `../../../escaped`", "expected: letters, digits"]),
         // --- materials ------------------------------------------------------
-        bp_case("unknown material", "  bulk_density: 1600 kg/m3\n", "  material: oer\n", 7, &["no material `oer`", "did you mean `ore`?", "expected: one of: ore"]),
+        bp_case("unknown material", "  bulk_density: 1600 kg/m3\n", "  material: ores\n", 7, &["no material `ores`", "did you mean `ore`?", "expected: one of: ore"]),
         case("material property of the wrong dimension", vec![("conveyors/bp.yaml", edit(BP, "  bulk_density: 1600 kg/m3\n", "  material: ore\n")), ("materials/ore.yaml", edit(ORE, "2400 kg/m3", "2400 kg"))], ("materials/ore.yaml", 5), &["property `bulk_density`", "`kg` is a unit of a mass", "1600 kg/m3"]),
         case("unknown material kind", vec![("materials/ore.yaml", edit(ORE, "kind: bulk", "kind: rock"))], ("materials/ore.yaml", 2), &["`rock` is not a material kind", "`kind: bulk` or `kind: chain`"]),
         case("duplicate material id", vec![("materials/ore-copy.yaml", ORE.as_bytes().to_vec())], ("materials/ore-copy.yaml", 1), &["material id `ore` is used twice", "materials/ore.yaml:1:"]),
@@ -735,7 +735,7 @@ fn a_template_with_a_typst_error_is_refused() {
 #[test]
 fn a_template_cannot_read_outside_the_package() {
     let dir = built_then_overridden("cover.typ.hbs", b"= Cover\n#read(\"/etc/passwd\")\n");
-    let out = assert_template_refused(dir.path(), &["templates/cover.typ.hbs", "file not found"]);
+    let out = assert_template_refused(dir.path(), &["templates/cover.typ.hbs", "does not typeset"]);
     assert!(!out.contains("root:"), "{out}");
 }
 

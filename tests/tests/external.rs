@@ -28,7 +28,9 @@ fn builtins() -> Registry {
     ];
     let mut registry = Registry::new();
     for m in modules {
-        registry.register(m, ModuleOrigin::BuiltIn).expect("built-ins register");
+        registry
+            .register(m, ModuleOrigin::BuiltIn)
+            .expect("built-ins register");
     }
     registry
 }
@@ -37,7 +39,8 @@ fn builtins() -> Registry {
 fn registry_for(root: &Path) -> Registry {
     let (project, _) = packwright_core::project::load(root).expect("project.yaml reads");
     let mut registry = builtins();
-    if let Err(problems) = packwright_external::register(&mut registry, root, &project.meta.modules) {
+    if let Err(problems) = packwright_external::register(&mut registry, root, &project.meta.modules)
+    {
         panic!("external modules: {problems:?}");
     }
     registry
@@ -65,7 +68,10 @@ fn the_example_modules_own_python_tests_pass() {
         .expect("python3 runs");
     let text = String::from_utf8_lossy(&out.stderr);
     assert!(out.status.success(), "python3 -m unittest failed:\n{text}");
-    assert!(text.contains("Ran 7 tests") && text.trim_end().ends_with("OK"), "{text}");
+    assert!(
+        text.contains("Ran 7 tests") && text.trim_end().ends_with("OK"),
+        "{text}"
+    );
 }
 
 const LBF: f64 = 4.4482216152605; // N, exact (NIST SP 811, appendix B)
@@ -90,7 +96,10 @@ fn the_demo_runs_the_external_module_into_results() {
     let out = &seals.outcome.outputs;
     let close = |name: &str, want: f64| {
         let got = out[name].value;
-        assert!((got - want).abs() <= 1e-9 * want.abs(), "{name}: {got} against {want}");
+        assert!(
+            (got - want).abs() <= 1e-9 * want.abs(),
+            "{name}: {got} against {want}"
+        );
     };
     close("seal_drag_force", seal);
     close("burden_depth", h);
@@ -104,7 +113,8 @@ fn the_demo_runs_the_external_module_into_results() {
         .expect("results/CV-101-SEALS.yaml was written");
     assert!(result.contains("module: \"skirt-seal\""), "{result}");
     assert!(result.contains("skirt_resistance"), "{result}");
-    let summary = std::fs::read_to_string(demo.path().join("results/summary.csv")).expect("summary");
+    let summary =
+        std::fs::read_to_string(demo.path().join("results/summary.csv")).expect("summary");
     assert!(summary.contains("CV-101-SEALS"), "{summary}");
     // The script ran in the project but left nothing there.
     assert!(!demo.path().join("modules/skirt-seal/__pycache__").exists());
@@ -115,7 +125,10 @@ fn the_module_digest_feeds_the_cache() {
     let demo = demo_copy();
     run(demo.path()).unwrap_or_else(|e| panic!("first run:\n{e}"));
     let again = run(demo.path()).expect("second run");
-    assert!(again.items["CV-101-SEALS"].from_cache, "an unchanged module is taken from the cache");
+    assert!(
+        again.items["CV-101-SEALS"].from_cache,
+        "an unchanged module is taken from the cache"
+    );
     let digest = again.items["CV-101-SEALS"].inputs_digest.clone();
 
     // The same manifest, a changed script: the item must be computed again.
@@ -124,9 +137,15 @@ fn the_module_digest_feeds_the_cache() {
     std::fs::write(&script, format!("{text}\n# a reviewer's comment\n")).expect("write");
     let changed = run(demo.path()).expect("third run");
     let item = &changed.items["CV-101-SEALS"];
-    assert!(!item.from_cache, "a changed script is not taken from the cache");
+    assert!(
+        !item.from_cache,
+        "a changed script is not taken from the cache"
+    );
     assert_ne!(item.inputs_digest, digest);
-    assert_eq!(changed.computed, 1, "only the item of the changed module runs again");
+    assert_eq!(
+        changed.computed, 1,
+        "only the item of the changed module runs again"
+    );
 }
 
 #[test]
@@ -138,15 +157,27 @@ fn the_package_names_the_external_module_and_its_digest() {
             .unwrap_or_else(|e| panic!("the demo runs:\n{e}"));
     let package = packwright_report::make(&project, &outcome, &registry, &Default::default())
         .unwrap_or_else(|e| panic!("the package typesets: {e:?}"));
-    let fingerprint = registry.get("skirt-seal").and_then(|r| r.fingerprint.clone()).expect("a digest");
+    let fingerprint = registry
+        .get("skirt-seal")
+        .and_then(|r| r.fingerprint.clone())
+        .expect("a digest");
     let text = pdf_extract::extract_text_from_mem(&package.pdf).expect("the PDF's text extracts");
     let flat: String = text.split_whitespace().collect::<Vec<_>>().join(" ");
     assert!(flat.contains("CV-101-SEALS"), "the item is in the PDF");
-    assert!(flat.contains("Skirt resistance built up along the skirt"), "its plot is in the PDF");
+    assert!(
+        flat.contains("Skirt resistance built up along the skirt"),
+        "its plot is in the PDF"
+    );
     // Long names and digests may wrap across lines, so compare without spaces.
     let squeezed: String = text.chars().filter(|c| !c.is_whitespace()).collect();
-    assert!(squeezed.contains("externalmodulemodules/skirt-seal/module.yaml"), "its origin is in the PDF");
-    assert!(squeezed.contains(&fingerprint), "its digest ({fingerprint}) is in the PDF");
+    assert!(
+        squeezed.contains("externalmodulemodules/skirt-seal/module.yaml"),
+        "its origin is in the PDF"
+    );
+    assert!(
+        squeezed.contains(&fingerprint),
+        "its digest ({fingerprint}) is in the PDF"
+    );
 }
 
 /// A project with one external module `bad` whose program is `script`.
@@ -166,13 +197,15 @@ outputs:
   - {{ name: twice, dimension: length, si_unit: m, us_unit: ft, meaning: twice the length }}
 "
     );
-    let dir = tree(&[
+    tree(&[
         ("modules/bad/module.yaml", &manifest),
         ("modules/bad/bad.py", script),
-        ("items/x-1.yaml", "id: X-1\nmodule: bad\ntitle: A bad item\ninputs:\n  length: 2 m\n"),
+        (
+            "items/x-1.yaml",
+            "id: X-1\nmodule: bad\ntitle: A bad item\ninputs:\n  length: 2 m\n",
+        ),
         ("results/keep.txt", "results from before\n"),
-    ]);
-    dir
+    ])
 }
 
 /// Runs the project, which must fail with a calculation error naming the
@@ -184,14 +217,22 @@ fn fails_cleanly(dir: &tempfile::TempDir, says: &str) -> String {
         Err(other) => panic!("expected a calculation error, got {other}"),
         Ok(_) => panic!("a misbehaving module must not give results"),
     };
-    assert!(err.contains("external module `bad` (modules/bad/module.yaml)"), "{err}");
+    assert!(
+        err.contains("external module `bad` (modules/bad/module.yaml)"),
+        "{err}"
+    );
     assert!(err.contains("item `X-1`"), "{err}");
     assert!(err.contains(says), "expected `{says}` in:\n{err}");
-    assert_eq!(snapshot(&dir.path().join("results")), before, "results/ was touched");
+    assert_eq!(
+        snapshot(&dir.path().join("results")),
+        before,
+        "results/ was touched"
+    );
     err
 }
 
-const READ: &str = "import json, sys\nreq = json.load(sys.stdin)\nx = req['inputs']['length']['value']\n";
+const READ: &str =
+    "import json, sys\nreq = json.load(sys.stdin)\nx = req['inputs']['length']['value']\n";
 
 #[test]
 fn a_wrong_dimension_is_refused() {
@@ -199,12 +240,18 @@ fn a_wrong_dimension_is_refused() {
         &format!("{READ}print(json.dumps({{'protocol': 1, 'outputs': {{'twice': {{'value': 2 * x, 'dimension': 'force'}}}}}}))\n"),
         "10",
     );
-    fails_cleanly(&dir, "output `twice` should be a length (`length`) but the response gives a force");
+    fails_cleanly(
+        &dir,
+        "output `twice` should be a length (`length`) but the response gives a force",
+    );
 }
 
 #[test]
 fn a_missing_output_is_refused() {
-    let dir = bad_module(&format!("{READ}print(json.dumps({{'protocol': 1, 'outputs': {{}}}}))\n"), "10");
+    let dir = bad_module(
+        &format!("{READ}print(json.dumps({{'protocol': 1, 'outputs': {{}}}}))\n"),
+        "10",
+    );
     fails_cleanly(&dir, "the response lacks output `twice`");
 }
 
@@ -219,7 +266,10 @@ fn a_nan_is_refused() {
 
 #[test]
 fn garbage_on_stdout_is_refused() {
-    let dir = bad_module(&format!("{READ}print('calculating... done, twice = ', 2 * x)\n"), "10");
+    let dir = bad_module(
+        &format!("{READ}print('calculating... done, twice = ', 2 * x)\n"),
+        "10",
+    );
     fails_cleanly(&dir, "standard output is not one JSON response");
 }
 
@@ -230,14 +280,23 @@ fn a_non_zero_exit_is_refused_with_its_stderr() {
         "10",
     );
     let err = fails_cleanly(&dir, "the command `python3 bad.py` exited with status 3");
-    assert!(err.contains("licence server not reachable"), "stderr is quoted:\n{err}");
+    assert!(
+        err.contains("licence server not reachable"),
+        "stderr is quoted:\n{err}"
+    );
 }
 
 #[test]
 fn a_crash_quotes_the_traceback() {
-    let dir = bad_module(&format!("{READ}raise RuntimeError('table lookup failed')\n"), "10");
+    let dir = bad_module(
+        &format!("{READ}raise RuntimeError('table lookup failed')\n"),
+        "10",
+    );
     let err = fails_cleanly(&dir, "exited with status 1");
-    assert!(err.contains("Traceback") && err.contains("table lookup failed"), "{err}");
+    assert!(
+        err.contains("Traceback") && err.contains("table lookup failed"),
+        "{err}"
+    );
 }
 
 #[test]
@@ -247,12 +306,18 @@ fn a_hang_is_stopped_at_the_timeout() {
         "1",
     );
     let err = fails_cleanly(&dir, "gave no answer within 1 s and was stopped");
-    assert!(err.contains("waiting for a lock"), "stderr so far is quoted:\n{err}");
+    assert!(
+        err.contains("waiting for a lock"),
+        "stderr so far is quoted:\n{err}"
+    );
 }
 
 #[test]
 fn a_module_named_in_project_yaml_is_found_outside_modules() {
-    let project = format!("{}modules: [tools/twice/module.yaml]\n", packwright_tests::PROJECT_YAML);
+    let project = format!(
+        "{}modules: [tools/twice/module.yaml]\n",
+        packwright_tests::PROJECT_YAML
+    );
     let manifest = "protocol: 1
 name: twice
 version: 1.0.0
@@ -268,8 +333,15 @@ outputs:
         ("project.yaml", &project),
         ("tools/twice/module.yaml", manifest),
         ("tools/twice/twice.py", &script),
-        ("items/t-1.yaml", "id: T-1\nmodule: twice\ntitle: Twice\ninputs:\n  length: 3 ft\n"),
+        (
+            "items/t-1.yaml",
+            "id: T-1\nmodule: twice\ntitle: Twice\ninputs:\n  length: 3 ft\n",
+        ),
     ]);
+    assert_eq!(
+        packwright_external::named_modules(dir.path()),
+        vec!["tools/twice/module.yaml".to_string()]
+    );
     let registry = registry_for(dir.path());
     assert_eq!(
         registry.get("twice").map(|r| r.origin.clone()),
@@ -298,15 +370,29 @@ fn bad_manifests_and_clashing_names_point_at_their_lines() {
         .expect_err("the typo is refused");
     let typo = problems
         .iter()
-        .find(|d| d.span.as_ref().is_some_and(|s| &*s.file == "modules/typo/module.yaml"))
+        .find(|d| {
+            d.span
+                .as_ref()
+                .is_some_and(|s| &*s.file == "modules/typo/module.yaml")
+        })
         .expect("the typo is reported");
     assert_eq!(typo.span.as_ref().map(|s| s.line), Some(7));
-    assert!(typo.message.contains("unknown field `comand`"), "{}", typo.message);
+    assert!(
+        typo.message.contains("unknown field `comand`"),
+        "{}",
+        typo.message
+    );
 
     std::fs::remove_dir_all(dir.path().join("modules/typo")).expect("remove");
     let problems = packwright_external::register(&mut registry, dir.path(), &[])
         .expect_err("the clash is refused");
     let span = problems[0].span.as_ref().expect("span");
     assert_eq!((&*span.file, span.line), ("modules/clash/module.yaml", 2));
-    assert!(problems[0].message.contains("`belt-pickup` is registered twice"), "{}", problems[0]);
+    assert!(
+        problems[0]
+            .message
+            .contains("`belt-pickup` is registered twice"),
+        "{}",
+        problems[0]
+    );
 }

@@ -12,8 +12,18 @@ use packwright_core::{ModuleOrigin, Registry};
 use packwright_tests::repo_root;
 use serde_json::{json, Value};
 
-/// The built-in modules, registered as the binary registers them.
+/// The built-in modules and the demo's external ones, registered as the
+/// binary registers them for the demo project.
 fn registry() -> Registry {
+    let mut registry = builtins();
+    let (project, _) = packwright_core::project::load(&demo()).expect("the demo loads");
+    packwright_external::register(&mut registry, &demo(), &project.meta.modules)
+        .expect("the demo's external modules register");
+    registry
+}
+
+/// The built-in modules alone.
+fn builtins() -> Registry {
     let modules: Vec<Arc<dyn Module>> = vec![
         Arc::new(packwright_belt_pickup::BeltPickup),
         Arc::new(packwright_chute_discharge::ChuteDischarge),

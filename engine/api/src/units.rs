@@ -451,20 +451,63 @@ impl fmt::Display for QuantityError {
 
 impl std::error::Error for QuantityError {}
 
+/// The length in bytes of the longest prefix of `text` that Rust's `f64`
+/// parser accepts (0 if none): a sign, then `inf`, `infinity` or `nan` in
+/// any case, or digits with an optional fraction and exponent.
+///
+/// One pass over the text: trying every prefix with `str::parse` takes time
+/// quadratic in the length, and one long value in an item file then kept
+/// `check` busy for minutes.
+fn float_prefix_len(text: &str) -> usize {
+    let b = text.as_bytes();
+    let start = usize::from(matches!(b.first(), Some(b'+' | b'-')));
+    for word in ["infinity", "inf", "nan"] {
+        let end = start + word.len();
+        if b.len() >= end && b[start..end].eq_ignore_ascii_case(word.as_bytes()) {
+            return end;
+        }
+    }
+    let digits_from = |mut j: usize| {
+        while j < b.len() && b[j].is_ascii_digit() {
+            j += 1;
+        }
+        j
+    };
+    let mut end = digits_from(start);
+    let mut any_digit = end > start;
+    if b.get(end) == Some(&b'.') {
+        let fraction_end = digits_from(end + 1);
+        any_digit |= fraction_end > end + 1;
+        end = fraction_end;
+    }
+    if !any_digit {
+        return 0;
+    }
+    if matches!(b.get(end), Some(b'e' | b'E')) {
+        let sign = usize::from(matches!(b.get(end + 1), Some(b'+' | b'-')));
+        let exponent_end = digits_from(end + 1 + sign);
+        if exponent_end > end + 1 + sign {
+            end = exponent_end;
+        }
+    }
+    end
+}
+
 /// Splits `"4.5 m/s"` into the number and the unit text.
 fn split_number(text: &str) -> Result<(f64, &str), QuantityError> {
     let text = text.trim();
     if text.is_empty() {
         return Err(QuantityError::Empty);
     }
-    // The longest prefix that parses as a float is the number; Rust's float
+    // The longest prefix that is a float literal is the number; Rust's float
     // grammar accepts "1e3", "-0.5", ".5", "inf" and "NaN".
-    let end = text
-        .char_indices()
-        .map(|(i, c)| i + c.len_utf8())
-        .rfind(|&i| text[..i].trim().parse::<f64>().is_ok())
-        .ok_or_else(|| QuantityError::BadNumber(text.to_string()))?;
-    let number: f64 = text[..end].trim().parse().expect("prefix parsed above");
+    let end = float_prefix_len(text);
+    if end == 0 {
+        return Err(QuantityError::BadNumber(text.to_string()));
+    }
+    let number: f64 = text[..end]
+        .parse()
+        .map_err(|_| QuantityError::BadNumber(text.to_string()))?;
     // "1e" followed by a unit like "1 m" is fine; reject "12abc" where the
     // unit is glued onto letters that might be a mistyped exponent.
     if !number.is_finite() {
@@ -709,5 +752,83 @@ mod tests {
             let back = si_to_unit(q.value_si, unit.dimension, unit.symbols[0]).unwrap();
             proptest::prop_assert!((back - x).abs() <= 1e-9 * x.abs().max(1.0));
         }
+
+        /// Every spelling, not only the first, with any spacing.
+        #[test]
+        fn every_spelling_round_trips(
+            x in -1e6f64..1e6,
+            idx in 0usize..UNITS.len(),
+            which in 0usize..8,
+            space in "[ ]{0,3}",
+        ) {
+            let unit = &UNITS[idx];
+            let symbol = unit.symbols[which % unit.symbols.len()];
+            // A unit that starts with a digit ("1") would join the number.
+            let space = if symbol.starts_with(|c: char| c.is_ascii_digit()) { " " } else { &space };
+            let q = parse_expecting(&format!("{x}{space}{symbol}"), unit.dimension).unwrap();
+            proptest::prop_assert_eq!(q.dimension, unit.dimension);
+            let back = si_to_unit(q.value_si, unit.dimension, symbol).unwrap();
+            proptest::prop_assert!((back - x).abs() <= 1e-9 * x.abs().max(1.0));
+        }
+
+        /// A number with a unit of another dimension is always refused, and
+        /// says which dimension the unit has.
+        #[test]
+        fn wrong_dimension_is_always_rejected(
+            x in -1e6f64..1e6,
+            idx in 0usize..UNITS.len(),
+            which in 0usize..8,
+            expected in 0usize..Dimension::ALL.len(),
+        ) {
+            let unit = &UNITS[idx];
+            let expected = Dimension::ALL[expected];
+            proptest::prop_assume!(unit.dimension != expected);
+            let symbol = unit.symbols[which % unit.symbols.len()];
+            let result = parse_expecting(&format!("{x} {symbol}"), expected);
+            proptest::prop_assert_eq!(
+                result,
+                Err(QuantityError::WrongDimension { unit: symbol.to_string(), found: unit.dimension })
+            );
+        }
+
+        /// `parse_expecting` never panics and agrees with `parse_quantity`.
+        #[test]
+        fn expecting_agrees_with_plain_parsing(s in "\\PC*", expected in 0usize..Dimension::ALL.len()) {
+            let expected = Dimension::ALL[expected];
+            match (parse_expecting(&s, expected), parse_quantity(&s)) {
+                (Ok(e), Ok(q)) => proptest::prop_assert_eq!(e, q),
+                (Ok(_), Err(_)) => proptest::prop_assert!(false, "only expecting accepted {:?}", s),
+                (Err(_), Ok(q)) => proptest::prop_assert!(q.dimension != expected),
+                (Err(_), Err(_)) => {}
+            }
+        }
+
+        /// The one-pass number scanner finds the same number as trying
+        /// every prefix with `str::parse` (the way it was first written).
+        #[test]
+        fn number_scanner_matches_trying_every_prefix(s in "[-+0-9.eEinfatyINFATY x]{0,14}") {
+            let text = s.trim();
+            let by_prefix = text
+                .char_indices()
+                .map(|(i, c)| i + c.len_utf8())
+                .rfind(|&i| text[..i].trim().parse::<f64>().is_ok());
+            let scanned = float_prefix_len(text);
+            match by_prefix {
+                None => proptest::prop_assert_eq!(scanned, 0, "{:?}", text),
+                Some(end) => {
+                    proptest::prop_assert_eq!(text[..end].trim(), &text[..scanned], "{:?}", text);
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn a_long_value_parses_in_linear_time() {
+        // Trying every prefix took minutes on 800 000 characters.
+        let long = format!("1.{}{}", "1".repeat(400_000), "x".repeat(400_000));
+        assert!(matches!(
+            parse_quantity(&long),
+            Err(QuantityError::UnknownUnit(u)) if u.len() == 400_000
+        ));
     }
 }

@@ -64,9 +64,12 @@ pub fn replace_dir(target: &Path, files: &[(String, Vec<u8>)]) -> io::Result<()>
         if let Some(p) = path.parent() {
             fs::create_dir_all(p)?;
         }
-        write_synced(&path, bytes)?;
+        fs::write(&path, bytes)?;
     }
-    sync_dir(&staging)?;
+    // One flush of the file system for the whole folder: a thousand
+    // result files would otherwise cost a thousand fsyncs.
+    let dir = fs::File::open(&staging)?;
+    rustix::fs::syncfs(&dir).map_err(io::Error::from)?;
     if target.exists() {
         // One system call swaps the two folders: there is no moment with
         // neither, nor with a mix of both.
@@ -102,6 +105,14 @@ pub fn write_file(target: &Path, bytes: &[u8]) -> io::Result<()> {
         sync_dir(parent)?;
     }
     Ok(())
+}
+
+/// Writes one file by rename, without flushing it to disk: for the cache,
+/// where a lost file costs only a recomputation.
+pub fn write_file_unsynced(target: &Path, bytes: &[u8]) -> io::Result<()> {
+    let staging = hidden_sibling(target, "new")?;
+    fs::write(&staging, bytes)?;
+    fs::rename(&staging, target)
 }
 
 #[cfg(test)]

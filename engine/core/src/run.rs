@@ -350,3 +350,7 @@ fn compute_guarded(module: &dyn Module, inputs: &Inputs) -> Result<Outcome, Calc
             )))
         })
 }
+
+#[cfg(test)]
+#[path = "run_tests.rs"]
+mod tests;

@@ -88,7 +88,10 @@ pub fn discover(
             .get(written)
             .cloned()
             .unwrap_or_else(|| Span::new("project.yaml", 1, 1));
-        let clean = written.trim().trim_start_matches("./").trim_end_matches('/');
+        let clean = written
+            .trim()
+            .trim_start_matches("./")
+            .trim_end_matches('/');
         let as_path = project_root.join(clean);
         let manifest = if as_path.is_dir() {
             format!("{clean}/{MANIFEST_FILE}")
@@ -171,6 +174,17 @@ pub fn register(
     } else {
         Err(problems)
     }
+}
+
+/// The manifests project.yaml names under `modules:`, as written, for a
+/// caller that has not loaded the project (`packwright modules DIR`,
+/// `explain`). Empty when project.yaml does not read; the loader reports
+/// that itself. After [`packwright_core::project::load`], use
+/// `project.meta.modules` instead: it is the same list.
+pub fn named_modules(project_root: &Path) -> Vec<String> {
+    project_yaml_module_spans(project_root)
+        .into_keys()
+        .collect()
 }
 
 /// The positions of the entries of project.yaml's `modules:` list, so that

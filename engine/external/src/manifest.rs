@@ -165,7 +165,10 @@ pub fn parse(file: &Arc<str>, bytes: &[u8]) -> Result<Manifest, Vec<Diagnostic>>
         problems.push(
             Diagnostic::new(
                 Some(manifest.span_of("timeout")),
-                format!("`timeout: {}` is not a usable number of seconds", raw.timeout),
+                format!(
+                    "`timeout: {}` is not a usable number of seconds",
+                    raw.timeout
+                ),
             )
             .expected(format!(
                 "seconds above 0 and at most {MAX_TIMEOUT_SECONDS}, for example `timeout: 10`"
@@ -256,15 +259,25 @@ command: [python3, tiny.py]
         let d = first(read(&GOOD.replace("purpose:", "purpos:")));
         let span = d.span.expect("a span");
         assert_eq!((&*span.file, span.line), ("modules/m/module.yaml", 4));
-        assert!(d.message.contains("unknown field `purpos`"), "{}", d.message);
+        assert!(
+            d.message.contains("unknown field `purpos`"),
+            "{}",
+            d.message
+        );
         assert!(d.message.contains("`purpose`"), "{}", d.message);
     }
 
     #[test]
     fn a_wrong_dimension_name_in_an_input_names_its_line() {
-        let d = first(read(&GOOD.replace("dimension: length } }", "dimension: lenght } }")));
+        let d = first(read(
+            &GOOD.replace("dimension: length } }", "dimension: lenght } }"),
+        ));
         assert_eq!(d.span.expect("a span").line, 7);
-        assert!(d.message.contains("unknown variant `lenght`"), "{}", d.message);
+        assert!(
+            d.message.contains("unknown variant `lenght`"),
+            "{}",
+            d.message
+        );
     }
 
     #[test]
@@ -278,9 +291,22 @@ command: [python3, tiny.py]
             .iter()
             .map(|d| (d.span.as_ref().expect("span").line, d.message.as_str()))
             .collect();
-        assert!(lines.iter().any(|(l, m)| *l == 1 && m.contains("protocol 2")), "{lines:?}");
-        assert!(lines.iter().any(|(l, m)| *l == 12 && m.contains("timeout: 0")), "{lines:?}");
-        assert!(lines.iter().any(|(l, m)| *l == 10 && m.contains("`lbf`")), "{lines:?}");
+        assert!(
+            lines
+                .iter()
+                .any(|(l, m)| *l == 1 && m.contains("protocol 2")),
+            "{lines:?}"
+        );
+        assert!(
+            lines
+                .iter()
+                .any(|(l, m)| *l == 12 && m.contains("timeout: 0")),
+            "{lines:?}"
+        );
+        assert!(
+            lines.iter().any(|(l, m)| *l == 10 && m.contains("`lbf`")),
+            "{lines:?}"
+        );
     }
 
     #[test]

@@ -40,18 +40,33 @@ impl ExternalModule {
     /// looked up on `PATH` (an interpreter such as `python3`); a program
     /// or argument that is a path is taken relative to the manifest's
     /// folder and must stay inside the project tree.
-    pub fn load(project_root: &Path, manifest_file: &str) -> Result<ExternalModule, Vec<Diagnostic>> {
+    pub fn load(
+        project_root: &Path,
+        manifest_file: &str,
+    ) -> Result<ExternalModule, Vec<Diagnostic>> {
         let file: Arc<str> = Arc::from(manifest_file);
         let whole_file = || Some(Span::new(file.clone(), 1, 1));
         let root = project_root.canonicalize().map_err(|e| {
-            vec![Diagnostic::new(None, format!("cannot open the project folder {}: {e}", project_root.display()))]
+            vec![Diagnostic::new(
+                None,
+                format!(
+                    "cannot open the project folder {}: {e}",
+                    project_root.display()
+                ),
+            )]
         })?;
         let path = inside(&root, &root.join(manifest_file)).map_err(|why| {
-            vec![Diagnostic::new(whole_file(), format!("the module manifest {why}"))
-                .expected("a manifest inside the project, for example `modules/skirt-seal/module.yaml`")]
+            vec![
+                Diagnostic::new(whole_file(), format!("the module manifest {why}")).expected(
+                    "a manifest inside the project, for example `modules/skirt-seal/module.yaml`",
+                ),
+            ]
         })?;
         let bytes = std::fs::read(&path).map_err(|e| {
-            vec![Diagnostic::new(whole_file(), format!("cannot read the module manifest: {e}"))]
+            vec![Diagnostic::new(
+                whole_file(),
+                format!("cannot read the module manifest: {e}"),
+            )]
         })?;
         let manifest = manifest::parse(&file, &bytes)?;
         let workdir = path.parent().expect("a file has a folder").to_path_buf();
@@ -91,8 +106,13 @@ impl ExternalModule {
                 }
                 Ok(_) => {
                     problems.push(
-                        Diagnostic::new(Some(command_span.clone()), format!("the program `{program_text}` is not a file"))
-                            .expected("the path of the module's program, relative to the manifest's folder"),
+                        Diagnostic::new(
+                            Some(command_span.clone()),
+                            format!("the program `{program_text}` is not a file"),
+                        )
+                        .expected(
+                            "the path of the module's program, relative to the manifest's folder",
+                        ),
                     );
                     PathBuf::new()
                 }
@@ -122,8 +142,11 @@ impl ExternalModule {
                 Ok(found) if found.is_file() => digested.push((relative(&root, &found), found)),
                 Ok(_) => {}
                 Err(why) => problems.push(
-                    Diagnostic::new(Some(command_span.clone()), format!("the argument `{arg}` {why}"))
-                        .expected("files inside the project, relative to the manifest's folder"),
+                    Diagnostic::new(
+                        Some(command_span.clone()),
+                        format!("the argument `{arg}` {why}"),
+                    )
+                    .expected("files inside the project, relative to the manifest's folder"),
                 ),
             }
         }
@@ -132,12 +155,18 @@ impl ExternalModule {
             match in_project(&root, &workdir, extra) {
                 Ok(found) if found.is_file() => digested.push((relative(&root, &found), found)),
                 Ok(_) => problems.push(
-                    Diagnostic::new(Some(files_span.clone()), format!("`{extra}` under `files` is not a file"))
-                        .expected("files the module reads, relative to the manifest's folder"),
+                    Diagnostic::new(
+                        Some(files_span.clone()),
+                        format!("`{extra}` under `files` is not a file"),
+                    )
+                    .expected("files the module reads, relative to the manifest's folder"),
                 ),
                 Err(why) => problems.push(
-                    Diagnostic::new(Some(files_span.clone()), format!("`{extra}` under `files` {why}"))
-                        .expected("files inside the project, relative to the manifest's folder"),
+                    Diagnostic::new(
+                        Some(files_span.clone()),
+                        format!("`{extra}` under `files` {why}"),
+                    )
+                    .expected("files inside the project, relative to the manifest's folder"),
                 ),
             }
         }
@@ -145,7 +174,10 @@ impl ExternalModule {
             return Err(problems);
         }
         let fingerprint = fingerprint(&bytes, &digested).map_err(|e| {
-            vec![Diagnostic::new(Some(command_span.clone()), format!("cannot read the module's files to digest them: {e}"))]
+            vec![Diagnostic::new(
+                Some(command_span.clone()),
+                format!("cannot read the module's files to digest them: {e}"),
+            )]
         })?;
         Ok(ExternalModule {
             command_text: manifest.command.join(" "),
@@ -188,7 +220,11 @@ impl ExternalModule {
     }
 
     fn failed(&self, item: &str, what: &str, stderr: &[u8]) -> CalcError {
-        CalcError::Contract(format!("{}: {what}{}", self.context(item), quote_stderr(stderr)))
+        CalcError::Contract(format!(
+            "{}: {what}{}",
+            self.context(item),
+            quote_stderr(stderr)
+        ))
     }
 }
 
@@ -222,28 +258,43 @@ impl Module for ExternalModule {
                 Some(code) => format!("exited with status {code}"),
                 None => "was killed by a signal".to_string(),
             };
-            return Err(self.failed(item, &format!("the command `{}` {how}", self.command_text), &finished.stderr));
+            return Err(self.failed(
+                item,
+                &format!("the command `{}` {how}", self.command_text),
+                &finished.stderr,
+            ));
         }
-        protocol::read_response(&finished.stdout, &self.declaration).map_err(|problem| match problem {
-            Problem::Contract(message) => self.failed(item, &message, &finished.stderr),
-            Problem::Numerical { quantity, message } => CalcError::Numerical {
-                quantity: format!("{quantity} of {}", self.context(item)),
-                message: format!("{message}{}", quote_stderr(&finished.stderr)),
-                inputs: inputs.values.keys().cloned().collect(),
+        protocol::read_response(&finished.stdout, &self.declaration).map_err(
+            |problem| match problem {
+                Problem::Contract(message) => self.failed(item, &message, &finished.stderr),
+                Problem::Numerical { quantity, message } => CalcError::Numerical {
+                    quantity: format!("{quantity} of {}", self.context(item)),
+                    message: format!("{message}{}", quote_stderr(&finished.stderr)),
+                    inputs: inputs.values.keys().cloned().collect(),
+                },
+                Problem::Refused(CalcError::Input {
+                    input,
+                    message,
+                    expected,
+                    ..
+                }) => CalcError::Input {
+                    span: inputs.span_of(&input),
+                    message: format!("{message} (said by {})", self.context(item)),
+                    input,
+                    expected,
+                },
+                Problem::Refused(CalcError::Numerical {
+                    quantity,
+                    message,
+                    inputs: driven,
+                }) => CalcError::Numerical {
+                    quantity: format!("{quantity} ({})", self.context(item)),
+                    message,
+                    inputs: driven,
+                },
+                Problem::Refused(other) => other,
             },
-            Problem::Refused(CalcError::Input { input, message, expected, .. }) => CalcError::Input {
-                span: inputs.span_of(&input),
-                message: format!("{message} (said by {})", self.context(item)),
-                input,
-                expected,
-            },
-            Problem::Refused(CalcError::Numerical { quantity, message, inputs: driven }) => CalcError::Numerical {
-                quantity: format!("{quantity} ({})", self.context(item)),
-                message,
-                inputs: driven,
-            },
-            Problem::Refused(other) => other,
-        })
+        )
     }
 
     fn fingerprint(&self) -> Option<String> {
@@ -256,7 +307,10 @@ impl Module for ExternalModule {
 /// digest alike.
 fn fingerprint(manifest: &[u8], files: &[(String, PathBuf)]) -> std::io::Result<String> {
     let mut h = Sha256::new();
-    h.update(format!("packwright external module\nmanifest {}\n", manifest.len()));
+    h.update(format!(
+        "packwright external module\nmanifest {}\n",
+        manifest.len()
+    ));
     h.update(manifest);
     for (rel, path) in files {
         let bytes = std::fs::read(path)?;
@@ -280,7 +334,10 @@ fn quote_stderr(stderr: &[u8]) -> String {
         quoted.push_str(&protocol::excerpt(line, 200));
     }
     if lines.len() > STDERR_LINES {
-        quoted.push_str(&format!("\n      ({} more lines)", lines.len() - STDERR_LINES));
+        quoted.push_str(&format!(
+            "\n      ({} more lines)",
+            lines.len() - STDERR_LINES
+        ));
     }
     quoted
 }
@@ -291,7 +348,9 @@ fn is_bare_name(program: &str) -> bool {
 
 /// Whether a relative path climbs out of its folder with `..`.
 fn escapes(path: &str) -> bool {
-    Path::new(path).components().any(|c| c == Component::ParentDir)
+    Path::new(path)
+        .components()
+        .any(|c| c == Component::ParentDir)
 }
 
 /// `text` relative to `workdir`, resolved through symbolic links, if it
@@ -333,7 +392,8 @@ fn find_on_path(name: &str) -> Option<PathBuf> {
 #[cfg(unix)]
 fn is_executable(path: &Path) -> bool {
     use std::os::unix::fs::PermissionsExt;
-    path.metadata().is_ok_and(|m| m.permissions().mode() & 0o111 != 0)
+    path.metadata()
+        .is_ok_and(|m| m.permissions().mode() & 0o111 != 0)
 }
 
 #[cfg(not(unix))]
@@ -363,7 +423,11 @@ command: COMMAND
         let dir = tempfile::tempdir().expect("temp dir");
         let module = dir.path().join("modules/twice");
         std::fs::create_dir_all(&module).expect("mkdir");
-        std::fs::write(module.join("module.yaml"), MANIFEST.replace("COMMAND", command)).expect("write");
+        std::fs::write(
+            module.join("module.yaml"),
+            MANIFEST.replace("COMMAND", command),
+        )
+        .expect("write");
         for (name, text) in files {
             let p = module.join(name);
             std::fs::create_dir_all(p.parent().expect("parent")).expect("mkdir");
@@ -373,10 +437,15 @@ command: COMMAND
     }
 
     fn problem(dir: &tempfile::TempDir) -> String {
-        let problems = ExternalModule::load(dir.path(), "modules/twice/module.yaml").expect_err("refused");
+        let problems =
+            ExternalModule::load(dir.path(), "modules/twice/module.yaml").expect_err("refused");
         let d = &problems[0];
         let span = d.span.as_ref().expect("a span");
-        assert_eq!((&*span.file, span.line), ("modules/twice/module.yaml", 11), "{d}");
+        assert_eq!(
+            (&*span.file, span.line),
+            ("modules/twice/module.yaml", 11),
+            "{d}"
+        );
         d.message.clone()
     }
 
@@ -384,7 +453,12 @@ command: COMMAND
     fn paths_outside_the_project_are_refused() {
         let outside = tempfile::tempdir().expect("temp dir");
         std::fs::write(outside.path().join("x.py"), "print(1)").expect("write");
-        let sibling = outside.path().file_name().expect("name").to_string_lossy().into_owned();
+        let sibling = outside
+            .path()
+            .file_name()
+            .expect("name")
+            .to_string_lossy()
+            .into_owned();
         // Both temporary folders share a parent; climb from modules/twice to it.
         let dir = project(&format!("[python3, ../../../{sibling}/x.py]"), &[]);
         assert!(problem(&dir).contains("outside the project tree"));
@@ -400,7 +474,11 @@ command: COMMAND
         let outside = tempfile::tempdir().expect("temp dir");
         std::fs::write(outside.path().join("evil.py"), "print(1)").expect("write");
         let dir = project("[python3, evil.py]", &[]);
-        std::os::unix::fs::symlink(outside.path().join("evil.py"), dir.path().join("modules/twice/evil.py")).expect("symlink");
+        std::os::unix::fs::symlink(
+            outside.path().join("evil.py"),
+            dir.path().join("modules/twice/evil.py"),
+        )
+        .expect("symlink");
         assert!(problem(&dir).contains("outside the project tree"));
     }
 
@@ -414,21 +492,36 @@ command: COMMAND
 
     #[test]
     fn the_fingerprint_follows_the_manifest_and_the_script() {
-        let dir = project("[sh, run.sh, --fast]", &[("run.sh", "echo one\n"), ("lib/table.csv", "1,2\n")]);
+        let dir = project(
+            "[sh, run.sh, --fast]",
+            &[("run.sh", "echo one\n"), ("lib/table.csv", "1,2\n")],
+        );
         let load = || ExternalModule::load(dir.path(), "modules/twice/module.yaml").expect("loads");
         let first = load().fingerprint().expect("fingerprint");
         assert!(first.starts_with("sha256:") && first.len() == 7 + 64);
-        assert_eq!(load().fingerprint().expect("fp"), first, "the same files give the same digest");
+        assert_eq!(
+            load().fingerprint().expect("fp"),
+            first,
+            "the same files give the same digest"
+        );
         std::fs::write(dir.path().join("modules/twice/run.sh"), "echo two\n").expect("write");
         let second = load().fingerprint().expect("fp");
         assert_ne!(second, first, "a changed script changes the digest");
         let manifest = dir.path().join("modules/twice/module.yaml");
         let text = std::fs::read_to_string(&manifest).expect("read");
         std::fs::write(&manifest, text.replace("version: 1.0.0", "version: 1.0.1")).expect("write");
-        assert_ne!(load().fingerprint().expect("fp"), second, "a changed manifest changes the digest");
+        assert_ne!(
+            load().fingerprint().expect("fp"),
+            second,
+            "a changed manifest changes the digest"
+        );
         std::fs::write(&manifest, text + "files: [lib/table.csv]\n").expect("write");
         let with_table = load().fingerprint().expect("fp");
         std::fs::write(dir.path().join("modules/twice/lib/table.csv"), "1,3\n").expect("write");
-        assert_ne!(load().fingerprint().expect("fp"), with_table, "a listed file enters the digest");
+        assert_ne!(
+            load().fingerprint().expect("fp"),
+            with_table,
+            "a listed file enters the digest"
+        );
     }
 }

@@ -74,7 +74,10 @@ pub fn run(
     }
     // A Python module must not leave __pycache__ folders in the project.
     command.env("PYTHONDONTWRITEBYTECODE", "1");
-    command.env("PACKWRIGHT_PROTOCOL", crate::protocol::PROTOCOL_VERSION.to_string());
+    command.env(
+        "PACKWRIGHT_PROTOCOL",
+        crate::protocol::PROTOCOL_VERSION.to_string(),
+    );
     #[cfg(unix)]
     {
         use std::os::unix::process::CommandExt;
@@ -94,8 +97,14 @@ pub fn run(
         let mut stdin = stdin;
         let _ = stdin.write_all(&input);
     });
-    let stdout = collect(child.stdout.take().expect("stdout is piped"), MAX_STDOUT_BYTES);
-    let stderr = collect(child.stderr.take().expect("stderr is piped"), MAX_STDERR_BYTES);
+    let stdout = collect(
+        child.stdout.take().expect("stdout is piped"),
+        MAX_STDOUT_BYTES,
+    );
+    let stderr = collect(
+        child.stderr.take().expect("stderr is piped"),
+        MAX_STDERR_BYTES,
+    );
 
     let status = match child.wait_timeout(timeout) {
         Ok(Some(status)) => status,
@@ -169,8 +178,11 @@ mod tests {
 
     #[test]
     fn output_and_status_come_back() {
-        let done = sh("read line; echo \"got $line\"; echo oops >&2; exit 3", Duration::from_secs(5))
-            .expect("finishes");
+        let done = sh(
+            "read line; echo \"got $line\"; echo oops >&2; exit 3",
+            Duration::from_secs(5),
+        )
+        .expect("finishes");
         assert_eq!(done.stdout, b"got ping\n");
         assert_eq!(done.stderr, b"oops\n");
         assert_eq!(done.status.code(), Some(3));
@@ -179,7 +191,10 @@ mod tests {
     #[test]
     fn a_hanging_command_and_its_children_are_killed() {
         let started = Instant::now();
-        let result = sh("echo started >&2; sleep 30 & sleep 30", Duration::from_millis(300));
+        let result = sh(
+            "echo started >&2; sleep 30 & sleep 30",
+            Duration::from_millis(300),
+        );
         match result {
             Err(Failure::Timeout { stderr }) => assert_eq!(stderr, b"started\n"),
             other => panic!("expected a timeout, got {other:?}"),

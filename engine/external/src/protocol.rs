@@ -386,8 +386,8 @@ pub fn read_response(stdout: &[u8], declaration: &ModuleDeclaration) -> Result<O
         Some(v) if v.as_u64() == Some(u64::from(PROTOCOL_VERSION)) => {}
         Some(v) => {
             return contract(format!(
-                "the response speaks protocol {v}; this packwright speaks protocol {PROTOCOL_VERSION}"
-            ))
+            "the response speaks protocol {v}; this packwright speaks protocol {PROTOCOL_VERSION}"
+        ))
         }
     }
     let response: Response = serde_json::from_value(json).map_err(|e| {
@@ -422,7 +422,11 @@ pub fn read_response(stdout: &[u8], declaration: &ModuleDeclaration) -> Result<O
     let mut outcome = Outcome::new();
     for (name, wire) in &response.outputs {
         let Some(spec) = declaration.output(name) else {
-            let declared: Vec<&str> = declaration.outputs.iter().map(|o| o.name.as_str()).collect();
+            let declared: Vec<&str> = declaration
+                .outputs
+                .iter()
+                .map(|o| o.name.as_str())
+                .collect();
             return contract(format!(
                 "the response has output `{name}`, which the manifest does not declare; declared outputs: {}",
                 declared.join(", ")
@@ -459,8 +463,16 @@ pub fn read_response(stdout: &[u8], declaration: &ModuleDeclaration) -> Result<O
             ));
         }
         let whose = format!("check `{}`", wire.name);
-        let value = wire.value.as_ref().map(|m| measure(m, &whose)).transpose()?;
-        let limit = wire.limit.as_ref().map(|m| measure(m, &whose)).transpose()?;
+        let value = wire
+            .value
+            .as_ref()
+            .map(|m| measure(m, &whose))
+            .transpose()?;
+        let limit = wire
+            .limit
+            .as_ref()
+            .map(|m| measure(m, &whose))
+            .transpose()?;
         if let (Some(v), Some(l)) = (value, limit) {
             if v.dimension != l.dimension {
                 return contract(format!(
@@ -517,7 +529,12 @@ pub fn read_response(stdout: &[u8], declaration: &ModuleDeclaration) -> Result<O
             let values: Option<Vec<f64>> = row.iter().copied().collect();
             match values {
                 Some(values) if values.iter().all(|x| x.is_finite()) => rows.push(values),
-                _ => return numerical(whose, "a row holds null (a value that is not a finite number)"),
+                _ => {
+                    return numerical(
+                        whose,
+                        "a row holds null (a value that is not a finite number)",
+                    )
+                }
             }
         }
         outcome.series.push(Series {
@@ -662,9 +679,18 @@ mod tests {
                "notes":["two sides"]}"#,
         )
         .expect("good response");
-        assert_eq!(outcome.outputs["drag"], Measure { value: 800.0, dimension: Dimension::Force });
+        assert_eq!(
+            outcome.outputs["drag"],
+            Measure {
+                value: 800.0,
+                dimension: Dimension::Force
+            }
+        );
         assert_eq!(outcome.checks[0].status, Status::Pass);
-        assert_eq!(outcome.series[0].rows, vec![vec![0.0, 0.0], vec![1.0, 40.0]]);
+        assert_eq!(
+            outcome.series[0].rows,
+            vec![vec![0.0, 0.0], vec![1.0, 40.0]]
+        );
         assert_eq!(outcome.notes, vec!["two sides".to_string()]);
     }
 
@@ -677,8 +703,10 @@ mod tests {
 
     #[test]
     fn bad_responses_are_named_precisely() {
-        let wrong_dim = read(r#"{"protocol":1,"outputs":{"drag":{"value":8,"dimension":"length"}}}"#);
-        assert!(contract_text(wrong_dim).contains("output `drag` should be a force (`force`) but the response gives a length"));
+        let wrong_dim =
+            read(r#"{"protocol":1,"outputs":{"drag":{"value":8,"dimension":"length"}}}"#);
+        assert!(contract_text(wrong_dim)
+            .contains("output `drag` should be a force (`force`) but the response gives a length"));
         let missing = read(r#"{"protocol":1,"outputs":{}}"#);
         assert!(contract_text(missing).contains("lacks output `drag`"));
         let extra = read(
@@ -687,7 +715,8 @@ mod tests {
         assert!(contract_text(extra).contains("output `lift`, which the manifest does not declare"));
         let version = read(r#"{"protocol":2,"outputs":{}}"#);
         assert!(contract_text(version).contains("speaks protocol 2"));
-        let unknown_field = read(r#"{"protocol":1,"outputs":{"drag":{"value":8,"dimension":"force"}},"extra":1}"#);
+        let unknown_field =
+            read(r#"{"protocol":1,"outputs":{"drag":{"value":8,"dimension":"force"}},"extra":1}"#);
         assert!(contract_text(unknown_field).contains("unknown field `extra`"));
         let garbage = read("hello\n");
         assert!(contract_text(garbage).contains("not one JSON response"));
@@ -701,7 +730,8 @@ mod tests {
             r#"{"protocol":1,"outputs":{"drag":{"value":8,"dimension":"force"}},
                "checks":[{"name":"other","status":"pass","relation":"condition","explanation":"x"}]}"#,
         );
-        assert!(contract_text(undeclared_check).contains("check `other`, which the manifest does not declare"));
+        assert!(contract_text(undeclared_check)
+            .contains("check `other`, which the manifest does not declare"));
     }
 
     #[test]
@@ -717,7 +747,9 @@ mod tests {
             );
         }
         // The word inside a string is no number.
-        let note = read(r#"{"protocol":1,"outputs":{"drag":{"value":1,"dimension":"force"}},"notes":["NaN"]}"#);
+        let note = read(
+            r#"{"protocol":1,"outputs":{"drag":{"value":1,"dimension":"force"}},"notes":["NaN"]}"#,
+        );
         assert!(note.is_ok());
     }
 

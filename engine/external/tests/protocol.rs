@@ -21,11 +21,14 @@ fn json_file(path: &str) -> serde_json::Value {
 }
 
 fn validator(path: &str) -> jsonschema::Validator {
-    jsonschema::validator_for(&json_file(path)).unwrap_or_else(|e| panic!("{path} is a schema: {e}"))
+    jsonschema::validator_for(&json_file(path))
+        .unwrap_or_else(|e| panic!("{path} is a schema: {e}"))
 }
 
 fn errors(v: &jsonschema::Validator, instance: &serde_json::Value) -> Vec<String> {
-    v.iter_errors(instance).map(|e| format!("{} at {}", e, e.instance_path())).collect()
+    v.iter_errors(instance)
+        .map(|e| format!("{} at {}", e, e.instance_path()))
+        .collect()
 }
 
 fn demo_declaration() -> packwright_api::ModuleDeclaration {
@@ -74,13 +77,22 @@ fn requests_the_engine_builds_follow_the_request_schema() {
     // A structured value and a choice and a flag, which the demo module
     // does not take, must follow the schema too.
     let span = Span::new("x.yaml", 1, 1);
-    let leaf = |v| Node { value: v, span: span.clone() };
+    let leaf = |v| Node {
+        value: v,
+        span: span.clone(),
+    };
     let inputs = inputs.with_structured(
         "path",
-        leaf(NodeValue::List(vec![leaf(NodeValue::Number(1.0)), leaf(NodeValue::Text("1 m".into()))])),
+        leaf(NodeValue::List(vec![
+            leaf(NodeValue::Number(1.0)),
+            leaf(NodeValue::Text("1 m".into())),
+        ])),
     );
     let mut inputs = inputs;
-    for (name, value) in [("mode", Value::Choice("fast".into())), ("worn", Value::Flag(true))] {
+    for (name, value) in [
+        ("mode", Value::Choice("fast".into())),
+        ("worn", Value::Flag(true)),
+    ] {
         inputs.values.insert(
             name.into(),
             packwright_api::ResolvedInput {
@@ -95,7 +107,10 @@ fn requests_the_engine_builds_follow_the_request_schema() {
     assert_eq!(errors(&request, &wire), Vec::<String>::new(), "{wire}");
     assert_eq!(wire["inputs"]["sealed_sides"], json!({"count": 2}));
     assert_eq!(wire["inputs"]["material"], json!({"material": "lump-ore"}));
-    assert_eq!(wire["criteria"]["max_skirt_power"]["dimension"], json!("power"));
+    assert_eq!(
+        wire["criteria"]["max_skirt_power"]["dimension"],
+        json!("power")
+    );
     assert_eq!(wire["inputs"]["path"], json!({"structured": [1.0, "1 m"]}));
 }
 
@@ -121,8 +136,14 @@ fn the_response_schema_refuses_what_the_reader_refuses() {
     bad["checks"][0]["status"] = json!("ok");
     cases.push(("an unknown status", bad));
     for (what, case) in cases {
-        assert!(!errors(&response, &case).is_empty(), "the schema accepts {what}");
+        assert!(
+            !errors(&response, &case).is_empty(),
+            "the schema accepts {what}"
+        );
         let bytes = serde_json::to_vec(&case).expect("json");
-        assert!(read_response(&bytes, &decl).is_err(), "the reader accepts {what}");
+        assert!(
+            read_response(&bytes, &decl).is_err(),
+            "the reader accepts {what}"
+        );
     }
 }

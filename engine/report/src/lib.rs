@@ -137,6 +137,8 @@ pub struct Package {
     pub pages: usize,
     /// Where the time went.
     pub timings: Timings,
+    /// The plot files the source refers to (`plots/N.svg`).
+    pub plots: Vec<(String, Vec<u8>)>,
 }
 
 /// What was written.
@@ -258,7 +260,7 @@ pub fn make(
     let started = Instant::now();
     let (source, segments) = templates.render(&data).map_err(ReportError::Template)?;
     timings.templates = started.elapsed();
-    let (pdf, pages, compile, pdf_time) = typeset(source.clone(), plots, project, &segments)?;
+    let (pdf, pages, compile, pdf_time) = typeset(source.clone(), plots.clone(), project, &segments)?;
     timings.compile = compile;
     timings.pdf = pdf_time;
     let rev = project
@@ -272,6 +274,7 @@ pub fn make(
         pdf,
         pages,
         timings,
+        plots,
     })
 }
 
@@ -298,6 +301,8 @@ pub fn build_and_write(
             }
         }
     }
+    // The plots go beside the source, so the .typ also typesets on its own.
+    files.extend(package.plots);
     files.push((format!("{}.typ", package.stem), package.source.into_bytes()));
     files.push((format!("{}.pdf", package.stem), package.pdf));
     packwright_core::fsio::replace_dir(&dir, &files)
