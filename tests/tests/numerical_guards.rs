@@ -42,9 +42,15 @@ fn project_with(item: &str) -> tempfile::TempDir {
     let dir = tree(&[("item.yaml", item)]);
     let materials = repo_root().join("projects/harrow-creek/materials");
     std::fs::create_dir_all(dir.path().join("materials")).expect("mkdir");
-    for entry in std::fs::read_dir(materials).expect("demo materials").flatten() {
-        std::fs::copy(entry.path(), dir.path().join("materials").join(entry.file_name()))
-            .expect("copy");
+    for entry in std::fs::read_dir(materials)
+        .expect("demo materials")
+        .flatten()
+    {
+        std::fs::copy(
+            entry.path(),
+            dir.path().join("materials").join(entry.file_name()),
+        )
+        .expect("copy");
     }
     for (path, text) in [("results/OLD.yaml", "old\n"), ("package/OLD.pdf", "old\n")] {
         let p = dir.path().join(path);
@@ -67,7 +73,10 @@ fn non_finite_words(text: &str) -> Vec<String> {
 /// written. Returns the exit code.
 fn assert_guarded(name: &str, item_id: &str, item: &str) -> i32 {
     let dir = project_with(item);
-    let before = [snapshot(&dir.path().join("results")), snapshot(&dir.path().join("package"))];
+    let before = [
+        snapshot(&dir.path().join("results")),
+        snapshot(&dir.path().join("package")),
+    ];
     let ran = packwright(dir.path(), &["build", "."]);
     let all = ran.all();
     assert!(!ran.stderr.contains("panicked"), "{name}: panicked:\n{all}");
@@ -79,17 +88,36 @@ fn assert_guarded(name: &str, item_id: &str, item: &str) -> i32 {
                     if is_text {
                         let text = String::from_utf8_lossy(&bytes);
                         let bad = non_finite_words(&text);
-                        assert!(bad.is_empty(), "{name}: {folder}/{} holds {bad:?}", file.display());
+                        assert!(
+                            bad.is_empty(),
+                            "{name}: {folder}/{} holds {bad:?}",
+                            file.display()
+                        );
                     }
                 }
             }
-            assert!(!dir.path().join("results/OLD.yaml").exists(), "{name}: results/ was written whole");
+            assert!(
+                !dir.path().join("results/OLD.yaml").exists(),
+                "{name}: results/ was written whole"
+            );
         }
         1 => {
-            assert!(all.contains(&format!("item `{item_id}`")), "{name}: names the item:\n{all}");
-            assert!(all.contains("driven by"), "{name}: names the inputs:\n{all}");
-            let after = [snapshot(&dir.path().join("results")), snapshot(&dir.path().join("package"))];
-            assert!(after == before, "{name}: nothing may be written after a calculation error");
+            assert!(
+                all.contains(&format!("item `{item_id}`")),
+                "{name}: names the item:\n{all}"
+            );
+            assert!(
+                all.contains("driven by"),
+                "{name}: names the inputs:\n{all}"
+            );
+            let after = [
+                snapshot(&dir.path().join("results")),
+                snapshot(&dir.path().join("package")),
+            ];
+            assert!(
+                after == before,
+                "{name}: nothing may be written after a calculation error"
+            );
         }
         other => panic!("{name}: exit code {other}:\n{all}"),
     }
@@ -99,24 +127,118 @@ fn assert_guarded(name: &str, item_id: &str, item: &str) -> i32 {
 #[test]
 fn degenerate_inputs_never_give_non_finite_results() {
     let cases: &[(&str, &str, &str, &[(&str, &str)])] = &[
-        ("belt too steep to accelerate the feed", "CV-105-LOAD", "conveyors/cv-105-load.yaml", &[("belt_slope", "45 deg")]),
-        ("belt slope where friction just balances it", "CV-105-LOAD", "conveyors/cv-105-load.yaml", &[("belt_slope", "33.0239 deg")]),
-        ("belt nearly vertical", "CV-105-LOAD", "conveyors/cv-105-load.yaml", &[("belt_slope", "89.9999 deg")]),
-        ("belt nearly vertical, descending", "CV-105-LOAD", "conveyors/cv-105-load.yaml", &[("belt_slope", "-89.9999 deg")]),
-        ("feed already at belt speed", "CV-101-LOAD", "conveyors/cv-101-load.yaml", &[("feed_speed_along_belt", "4.5 m/s")]),
-        ("vanishing flow and speed", "CV-101-LOAD", "conveyors/cv-101-load.yaml", &[("mass_flow", "1e-12 t/h"), ("belt_speed", "1e-12 m/s"), ("feed_speed_along_belt", "0 m/s")]),
-        ("hopper wall nearly vertical", "BIN-03-OUTLET", "transfers/BIN-03-OUTLET.yaml", &[("method", "johanson"), ("hopper_half_angle", "1e-9 deg")]),
-        ("pile and landing pushes nearly cancel gravity", "CH-01-FOUNTAIN", "chain/CH-01-FOUNTAIN.yaml", &[("pile_push", "0.4999999"), ("landing_push", "0.4999999")]),
-        ("greatest rim friction round a full turn", "CH-01-FOUNTAIN", "chain/CH-01-FOUNTAIN.yaml", &[("rim_friction", "2"), ("rim_wrap_angle", "360 deg")]),
-        ("absurd payout length", "CH-01-FOUNTAIN", "chain/CH-01-FOUNTAIN.yaml", &[("payout_length", "1e9 m")]),
-        ("brake far stronger than the chain", "CH-02-ANCHOR", "chain/CH-02-ANCHOR.yaml", &[("brake_force", "1e12 N")]),
-        ("near-critical damping", "H-01-MAINT-CRANE", "lifting/H-01-MAINT-CRANE.yaml", &[("damping_ratio", "0.9999999")]),
-        ("no slack at all", "H-01-MAINT-CRANE", "lifting/H-01-MAINT-CRANE.yaml", &[("slack_height", "0 m")]),
-        ("the whole load released", "H-01-MAINT-CRANE", "lifting/H-01-MAINT-CRANE.yaml", &[("released_mass", "8.6 t")]),
-        ("absurd drive ramp time", "H-01-MAINT-CRANE", "lifting/H-01-MAINT-CRANE.yaml", &[("drive_ramp_time", "1e9 s")]),
-        ("greatest chute friction", "TC-02", "transfers/TC-02.yaml", &[("chute_friction", "2")]),
-        ("no speed kept at impact", "TC-02", "transfers/TC-02.yaml", &[("impact_retention", "0")]),
-        ("receiving belt running backwards", "TC-02", "transfers/TC-02.yaml", &[("plan_angle", "180 deg")]),
+        (
+            "belt too steep to accelerate the feed",
+            "CV-105-LOAD",
+            "conveyors/cv-105-load.yaml",
+            &[("belt_slope", "45 deg")],
+        ),
+        (
+            "belt slope where friction just balances it",
+            "CV-105-LOAD",
+            "conveyors/cv-105-load.yaml",
+            &[("belt_slope", "33.0239 deg")],
+        ),
+        (
+            "belt nearly vertical",
+            "CV-105-LOAD",
+            "conveyors/cv-105-load.yaml",
+            &[("belt_slope", "89.9999 deg")],
+        ),
+        (
+            "belt nearly vertical, descending",
+            "CV-105-LOAD",
+            "conveyors/cv-105-load.yaml",
+            &[("belt_slope", "-89.9999 deg")],
+        ),
+        (
+            "feed already at belt speed",
+            "CV-101-LOAD",
+            "conveyors/cv-101-load.yaml",
+            &[("feed_speed_along_belt", "4.5 m/s")],
+        ),
+        (
+            "vanishing flow and speed",
+            "CV-101-LOAD",
+            "conveyors/cv-101-load.yaml",
+            &[
+                ("mass_flow", "1e-12 t/h"),
+                ("belt_speed", "1e-12 m/s"),
+                ("feed_speed_along_belt", "0 m/s"),
+            ],
+        ),
+        (
+            "hopper wall nearly vertical",
+            "BIN-03-OUTLET",
+            "transfers/BIN-03-OUTLET.yaml",
+            &[("method", "johanson"), ("hopper_half_angle", "1e-9 deg")],
+        ),
+        (
+            "pile and landing pushes nearly cancel gravity",
+            "CH-01-FOUNTAIN",
+            "chain/CH-01-FOUNTAIN.yaml",
+            &[("pile_push", "0.4999999"), ("landing_push", "0.4999999")],
+        ),
+        (
+            "greatest rim friction round a full turn",
+            "CH-01-FOUNTAIN",
+            "chain/CH-01-FOUNTAIN.yaml",
+            &[("rim_friction", "2"), ("rim_wrap_angle", "360 deg")],
+        ),
+        (
+            "absurd payout length",
+            "CH-01-FOUNTAIN",
+            "chain/CH-01-FOUNTAIN.yaml",
+            &[("payout_length", "1e9 m")],
+        ),
+        (
+            "brake far stronger than the chain",
+            "CH-02-ANCHOR",
+            "chain/CH-02-ANCHOR.yaml",
+            &[("brake_force", "1e12 N")],
+        ),
+        (
+            "near-critical damping",
+            "H-01-MAINT-CRANE",
+            "lifting/H-01-MAINT-CRANE.yaml",
+            &[("damping_ratio", "0.9999999")],
+        ),
+        (
+            "no slack at all",
+            "H-01-MAINT-CRANE",
+            "lifting/H-01-MAINT-CRANE.yaml",
+            &[("slack_height", "0 m")],
+        ),
+        (
+            "the whole load released",
+            "H-01-MAINT-CRANE",
+            "lifting/H-01-MAINT-CRANE.yaml",
+            &[("released_mass", "8.6 t"), ("release_rate", "rapid")],
+        ),
+        (
+            "absurd drive ramp time",
+            "H-01-MAINT-CRANE",
+            "lifting/H-01-MAINT-CRANE.yaml",
+            &[("drive_ramp_time", "1e9 s")],
+        ),
+        (
+            "greatest chute friction",
+            "TC-02",
+            "transfers/TC-02.yaml",
+            &[("chute_friction", "2")],
+        ),
+        (
+            "no speed kept at impact",
+            "TC-02",
+            "transfers/TC-02.yaml",
+            &[("impact_retention", "0")],
+        ),
+        (
+            "receiving belt running backwards",
+            "TC-02",
+            "transfers/TC-02.yaml",
+            &[("plan_angle", "180 deg")],
+        ),
     ];
     let mut stopped = Vec::new();
     for (name, id, file, edits) in cases {
@@ -126,7 +248,10 @@ fn degenerate_inputs_never_give_non_finite_results() {
     }
     // The absurd ones stop with a calculation error rather than a result.
     for name in ["absurd payout length", "absurd drive ramp time"] {
-        assert!(stopped.contains(&name), "`{name}` should stop the run: {stopped:?}");
+        assert!(
+            stopped.contains(&name),
+            "`{name}` should stop the run: {stopped:?}"
+        );
     }
 }
 
@@ -138,13 +263,22 @@ fn a_calculation_error_leaves_a_good_build_alone() {
     }
     let good = packwright(dir.path(), &["build", "."]);
     assert_eq!(good.code, 0, "{}", good.all());
-    let before = [snapshot(&dir.path().join("results")), snapshot(&dir.path().join("package"))];
-    let item = demo_item("lifting/H-01-MAINT-CRANE.yaml", &[("drive_ramp_time", "1e9 s")]);
+    let before = [
+        snapshot(&dir.path().join("results")),
+        snapshot(&dir.path().join("package")),
+    ];
+    let item = demo_item(
+        "lifting/H-01-MAINT-CRANE.yaml",
+        &[("drive_ramp_time", "1e9 s")],
+    );
     std::fs::write(dir.path().join("item.yaml"), item).expect("write");
     let ran = packwright(dir.path(), &["build", "."]);
     assert_eq!(ran.code, 1, "{}", ran.all());
     assert!(ran.stderr.contains("drive_ramp_time"), "{}", ran.all());
-    let after = [snapshot(&dir.path().join("results")), snapshot(&dir.path().join("package"))];
+    let after = [
+        snapshot(&dir.path().join("results")),
+        snapshot(&dir.path().join("package")),
+    ];
     assert!(after == before);
     assert!(Path::new(&dir.path().join("package")).is_dir());
 }

@@ -199,13 +199,16 @@ fn copy_tree(from: &Path, to: &Path) {
     }
 }
 
+/// A change that makes a good item bad.
+type Spoil = Box<dyn Fn(&mut Value)>;
+
 #[test]
 fn bad_items_fail_the_schema_and_the_engine() {
     let validator = demo_validator();
     let any_project = self::validator();
     let (file, good) = belt_item();
     assert!(errors(&validator, &good).is_empty());
-    let cases: Vec<(&str, Box<dyn Fn(&mut Value)>)> = vec![
+    let cases: Vec<(&str, Spoil)> = vec![
         (
             "unknown input",
             Box::new(|v| v["inputs"]["belt_sped"] = json!("4.5 m/s")),
@@ -307,7 +310,7 @@ fn bad_choices_and_kinds_fail_in_other_modules() {
     let (hopper_file, hopper) = by_module("hopper-outlet");
     let (chain_file, chain) = by_module("chain-payout");
     let (chute_file, chute) = by_module("chute-discharge");
-    let cases: Vec<(&str, &str, Value, Box<dyn Fn(&mut Value)>)> = vec![
+    let cases: Vec<(&str, &str, Value, Spoil)> = vec![
         (
             "wrong choice",
             &hoist_file,

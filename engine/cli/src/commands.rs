@@ -116,7 +116,10 @@ fn run_options(fresh: bool, out: &Output) -> RunOptions {
 /// modules; a bad manifest is bad input.
 fn registry_for(dir: &Path) -> Result<packwright_core::Registry, u8> {
     builtin::registry_for(dir).map_err(|problems| {
-        report_error(dir, &EngineError::BadInput(packwright_core::Diagnostics(problems)))
+        report_error(
+            dir,
+            &EngineError::BadInput(packwright_core::Diagnostics(problems)),
+        )
     })
 }
 

@@ -9,7 +9,10 @@ use crate::commands::{Output, BAD_INPUT, FAILED, OK};
 /// The demo project's files a new project starts from.
 macro_rules! demo {
     ($path:literal) => {
-        ($path, include_str!(concat!("../../../projects/harrow-creek/", $path)))
+        (
+            $path,
+            include_str!(concat!("../../../projects/harrow-creek/", $path)),
+        )
     };
 }
 
@@ -35,7 +38,13 @@ fn project_yaml(dir: &Path) -> String {
         .unwrap_or_else(|| "new-project".into());
     let document: String = name
         .chars()
-        .map(|c| if c.is_ascii_alphanumeric() { c.to_ascii_uppercase() } else { '-' })
+        .map(|c| {
+            if c.is_ascii_alphanumeric() {
+                c.to_ascii_uppercase()
+            } else {
+                '-'
+            }
+        })
         .collect();
     let today = today();
     format!(

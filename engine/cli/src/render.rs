@@ -84,9 +84,12 @@ pub(crate) fn diagnostics(root: &Path, problems: &[Diagnostic]) -> String {
         {
             match file_id(span) {
                 Some(id) => {
-                    let range =
-                        byte_range(files.get(id).expect("added").source(), &line_starts[&id], span)
-                            .unwrap_or(0..0);
+                    let range = byte_range(
+                        files.get(id).expect("added").source(),
+                        &line_starts[&id],
+                        span,
+                    )
+                    .unwrap_or(0..0);
                     let label = if i == 0 {
                         Label::primary(id, range)
                     } else {

@@ -50,8 +50,10 @@ impl Cache {
             .collect();
         for run in outcome.items.values().filter(|r| !r.from_cache) {
             if let Ok(json) = serde_json::to_vec(&run.outcome) {
-                let _ =
-                    crate::fsio::write_file_unsynced(&self.dir.join(file_name(&run.inputs_digest)), &json);
+                let _ = crate::fsio::write_file_unsynced(
+                    &self.dir.join(file_name(&run.inputs_digest)),
+                    &json,
+                );
             }
         }
         if let Ok(entries) = fs::read_dir(&self.dir) {

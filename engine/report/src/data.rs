@@ -44,13 +44,28 @@ impl Review {
                     item: c.item.clone(),
                     kind: c.kind.clone(),
                     name: c.name.clone(),
-                    old: c.old.clone(),
-                    new: c.new.clone(),
+                    old: breakable(&c.old),
+                    new: breakable(&c.new),
                     change: c.percent.map(|p| format!("{p:+.2} %")).unwrap_or_default(),
                 })
                 .collect(),
             stale: state.stale.clone(),
         }
+    }
+}
+
+/// Lets a long `(link ITEM.OUTPUT)` note wrap in a narrow table cell, by
+/// a zero-width space after its dots and underscores (numbers stay whole).
+fn breakable(text: &str) -> String {
+    match text.find('(') {
+        Some(at) => {
+            let (value, note) = text.split_at(at);
+            format!(
+                "{value}{}",
+                note.replace('.', ".\u{200B}").replace('_', "_\u{200B}")
+            )
+        }
+        None => text.to_string(),
     }
 }
 
@@ -242,13 +257,16 @@ fn value_words(value: &Value, system: UnitSystem, written: &str) -> String {
     }
 }
 
+/// A file the package source refers to: its path in the sandbox and bytes.
+pub type PackageFile = (String, Vec<u8>);
+
 /// Builds the template data and the plot files for a run.
 pub fn build(
     project: &Project,
     outcome: &RunOutcome,
     registry: &Registry,
     review: &Review,
-) -> Result<(PackageData, Vec<(String, Vec<u8>)>), String> {
+) -> Result<(PackageData, Vec<PackageFile>), String> {
     let system = project.meta.units;
     let revision = project
         .meta

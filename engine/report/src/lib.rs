@@ -32,26 +32,30 @@ pub enum ReportError {
     /// A template (usually a project's override) is wrong: bad input.
     Template(templates::TemplateError),
     /// Typst rejected the generated source.
-    Typst {
-        /// The template the failing part came from.
-        template: String,
-        /// The template's file.
-        file: String,
-        /// The item whose section failed, if any.
-        item: Option<String>,
-        /// Line in the generated `.typ` source.
-        line: usize,
-        /// The generated line.
-        text: String,
-        /// Typst's message and hints.
-        message: String,
-        /// Whether the template was a project override (then it is bad input).
-        overridden: bool,
-    },
+    Typst(Box<TypstFailure>),
     /// The data cannot make a package (no revision, a plot without points).
     Data(String),
     /// Writing failed.
     Io(String),
+}
+
+/// Where and why Typst rejected the generated source.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TypstFailure {
+    /// The template the failing part came from.
+    pub template: String,
+    /// The template's file.
+    pub file: String,
+    /// The item whose section failed, if any.
+    pub item: Option<String>,
+    /// Line in the generated `.typ` source.
+    pub line: usize,
+    /// The generated line.
+    pub text: String,
+    /// Typst's message and hints.
+    pub message: String,
+    /// Whether the template was a project override (then it is bad input).
+    pub overridden: bool,
 }
 
 impl ReportError {
@@ -59,9 +63,7 @@ impl ReportError {
     pub fn exit_code(&self) -> u8 {
         match self {
             ReportError::Template(_) => 2,
-            ReportError::Typst {
-                overridden: true, ..
-            } => 2,
+            ReportError::Typst(failure) if failure.overridden => 2,
             _ => 1,
         }
     }
@@ -74,15 +76,16 @@ impl fmt::Display for ReportError {
                 Some(line) => write!(f, "error: {}:{line}: {}", e.file, e.message),
                 None => write!(f, "error: {}: {}", e.file, e.message),
             },
-            ReportError::Typst {
-                template,
-                file,
-                item,
-                line,
-                text,
-                message,
-                ..
-            } => {
+            ReportError::Typst(failure) => {
+                let TypstFailure {
+                    template,
+                    file,
+                    item,
+                    line,
+                    text,
+                    message,
+                    ..
+                } = failure.as_ref();
                 let at = item
                     .as_deref()
                     .map(|i| format!(" (section of item `{i}`)"))
@@ -138,7 +141,7 @@ pub struct Package {
     /// Where the time went.
     pub timings: Timings,
     /// The plot files the source refers to (`plots/N.svg`).
-    pub plots: Vec<(String, Vec<u8>)>,
+    pub plots: Vec<data::PackageFile>,
 }
 
 /// What was written.
@@ -162,7 +165,7 @@ fn date_of(text: &str) -> Option<Datetime> {
 /// Typesets a Typst source (with in-memory plot files) into a PDF.
 pub fn typeset(
     source: String,
-    files: Vec<(String, Vec<u8>)>,
+    files: Vec<data::PackageFile>,
     project: &Project,
     segments: &[templates::Segment],
 ) -> Result<(Vec<u8>, usize, Duration, Duration), ReportError> {
@@ -232,7 +235,7 @@ fn typst_error(
         .unwrap_or("")
         .to_string();
     let segment = segments.iter().rev().find(|s| s.first_line <= line);
-    ReportError::Typst {
+    ReportError::Typst(Box::new(TypstFailure {
         template: segment.map(|s| s.template.clone()).unwrap_or_default(),
         file: segment.map(|s| s.file.clone()).unwrap_or_default(),
         item: segment.and_then(|s| s.item.clone()),
@@ -240,7 +243,7 @@ fn typst_error(
         text,
         message,
         overridden: segment.is_some_and(|s| s.file != "(built in)"),
-    }
+    }))
 }
 
 /// Makes the package of a run (nothing written).
@@ -260,7 +263,8 @@ pub fn make(
     let started = Instant::now();
     let (source, segments) = templates.render(&data).map_err(ReportError::Template)?;
     timings.templates = started.elapsed();
-    let (pdf, pages, compile, pdf_time) = typeset(source.clone(), plots.clone(), project, &segments)?;
+    let (pdf, pages, compile, pdf_time) =
+        typeset(source.clone(), plots.clone(), project, &segments)?;
     timings.compile = compile;
     timings.pdf = pdf_time;
     let rev = project

@@ -22,6 +22,9 @@ const SURFACE: RGBColor = RGBColor(0x44, 0x44, 0x44);
 const REFERENCE: RGBColor = RGBColor(0x88, 0x88, 0x88);
 const FONT: &str = "Libertinus Serif";
 
+/// A layer converted to display units: legend text, style, points.
+type Layer<'a> = (Option<&'a str>, LayerStyle, Vec<(f64, f64)>);
+
 /// Width of every plot in SVG pixels; the package scales it to the text width.
 const WIDTH: u32 = 720;
 
@@ -62,7 +65,7 @@ fn padded(lo: f64, hi: f64) -> (f64, f64) {
 pub fn svg(plot: &Plot, system: UnitSystem) -> Result<String, String> {
     let xu = axis_unit(plot.x.dimension, system);
     let yu = axis_unit(plot.y.dimension, system);
-    let layers: Vec<(Option<&str>, LayerStyle, Vec<(f64, f64)>)> = plot
+    let layers: Vec<Layer> = plot
         .layers
         .iter()
         .map(|l| {
@@ -129,7 +132,7 @@ pub fn svg(plot: &Plot, system: UnitSystem) -> Result<String, String> {
 #[allow(clippy::too_many_arguments)]
 fn draw(
     plot: &Plot,
-    layers: &[(Option<&str>, LayerStyle, Vec<(f64, f64)>)],
+    layers: &[Layer],
     (mut x0, mut x1): (f64, f64),
     (y0, y1): (f64, f64),
     height: u32,
