@@ -11,28 +11,13 @@
 
 use std::path::Path;
 use std::process::Command;
-use std::sync::Arc;
 
-use packwright_api::Module;
 use packwright_core::{EngineError, ModuleOrigin, Registry, RunOptions};
 use packwright_tests::{demo_copy, repo_root, snapshot, tree};
 
 /// The built-in modules, as the binary registers them.
 fn builtins() -> Registry {
-    let modules: Vec<Arc<dyn Module>> = vec![
-        Arc::new(packwright_belt_pickup::BeltPickup),
-        Arc::new(packwright_chute_discharge::ChuteDischarge),
-        Arc::new(packwright_hopper_outlet::HopperOutlet),
-        Arc::new(packwright_chain_payout::ChainPayout),
-        Arc::new(packwright_hoist_loads::HoistLoads),
-    ];
-    let mut registry = Registry::new();
-    for m in modules {
-        registry
-            .register(m, ModuleOrigin::BuiltIn)
-            .expect("built-ins register");
-    }
-    registry
+    packwright::builtin::registry()
 }
 
 /// The built-ins plus the project's external modules.

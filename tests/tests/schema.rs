@@ -4,11 +4,9 @@
 //! `packwright check`.
 
 use std::path::Path;
-use std::sync::Arc;
 
 use packwright_api::units::UNITS;
-use packwright_api::Module;
-use packwright_core::{ModuleOrigin, Registry};
+use packwright_core::Registry;
 use packwright_tests::repo_root;
 use serde_json::{json, Value};
 
@@ -24,20 +22,7 @@ fn registry() -> Registry {
 
 /// The built-in modules alone.
 fn builtins() -> Registry {
-    let modules: Vec<Arc<dyn Module>> = vec![
-        Arc::new(packwright_belt_pickup::BeltPickup),
-        Arc::new(packwright_chute_discharge::ChuteDischarge),
-        Arc::new(packwright_hopper_outlet::HopperOutlet),
-        Arc::new(packwright_chain_payout::ChainPayout),
-        Arc::new(packwright_hoist_loads::HoistLoads),
-    ];
-    let mut registry = Registry::new();
-    for module in modules {
-        registry
-            .register(module, ModuleOrigin::BuiltIn)
-            .expect("built-in modules are declared correctly");
-    }
-    registry
+    packwright::builtin::registry()
 }
 
 /// The schema for any project.

@@ -613,7 +613,15 @@ fn schema() -> u8 {
         Ok(r) => r,
         Err(code) => return code,
     };
-    let schema = packwright_core::schema::item_schema(&registry);
+    // Inside a project the schema knows its materials: a material input
+    // takes only their ids, and what a material does not fill stays required.
+    let here = Path::new(".");
+    let schema = match packwright_core::project::load(here) {
+        Ok((project, _)) if here.join("project.yaml").is_file() => {
+            packwright_core::schema::item_schema_with_materials(&registry, &project.materials)
+        }
+        _ => packwright_core::schema::item_schema(&registry),
+    };
     let _ = writeln!(
         std::io::stdout(),
         "{}",
