@@ -135,7 +135,7 @@ fn assert_one_of(what: &str, trial: usize, now: &Snapshot, versions: &[&Snapshot
         .into_iter()
         .partition(|(p, _)| is_staging_leftover(p));
     assert!(
-        versions.iter().any(|v| *v == &visible),
+        versions.contains(&&visible),
         "trial {trial}: {what} is neither complete version ({}; it differs from each in: {})",
         describe(&visible),
         versions

@@ -124,9 +124,17 @@ fn assert_guarded(name: &str, item_id: &str, item: &str) -> i32 {
     ran.code
 }
 
+/// A case: its name, the item id, the demo item's file, and the edits.
+type Degenerate = (
+    &'static str,
+    &'static str,
+    &'static str,
+    &'static [(&'static str, &'static str)],
+);
+
 #[test]
 fn degenerate_inputs_never_give_non_finite_results() {
-    let cases: &[(&str, &str, &str, &[(&str, &str)])] = &[
+    let cases: &[Degenerate] = &[
         (
             "belt too steep to accelerate the feed",
             "CV-105-LOAD",

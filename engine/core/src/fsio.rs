@@ -53,10 +53,28 @@ fn write_synced(path: &Path, bytes: &[u8]) -> io::Result<()> {
     f.sync_all()
 }
 
+/// Whether the folder `target` already holds exactly `files`.
+fn holds_exactly(target: &Path, files: &[(String, Vec<u8>)]) -> bool {
+    let Ok(entries) = fs::read_dir(target) else {
+        return false;
+    };
+    let count = entries.count();
+    count == files.len()
+        && files
+            .iter()
+            .all(|(name, bytes)| fs::read(target.join(name)).is_ok_and(|old| &old == bytes))
+}
+
 /// Replaces the folder `target` with one holding exactly `files` (relative
-/// names and contents), atomically.
+/// names and contents), atomically. A folder that already holds exactly
+/// these files is left alone; files that did not change are hard-linked
+/// into the new folder rather than written again, so a rerun that changes
+/// one result of a thousand writes one file.
 pub fn replace_dir(target: &Path, files: &[(String, Vec<u8>)]) -> io::Result<()> {
     clean_leftovers(target);
+    if holds_exactly(target, files) {
+        return Ok(());
+    }
     let staging = hidden_sibling(target, "new")?;
     fs::create_dir_all(&staging)?;
     for (name, bytes) in files {
@@ -64,7 +82,11 @@ pub fn replace_dir(target: &Path, files: &[(String, Vec<u8>)]) -> io::Result<()>
         if let Some(p) = path.parent() {
             fs::create_dir_all(p)?;
         }
-        fs::write(&path, bytes)?;
+        let old = target.join(name);
+        let unchanged = fs::read(&old).is_ok_and(|b| &b == bytes);
+        if !(unchanged && fs::hard_link(&old, &path).is_ok()) {
+            fs::write(&path, bytes)?;
+        }
     }
     // One flush of the file system for the whole folder: a thousand
     // result files would otherwise cost a thousand fsyncs.
