@@ -13,8 +13,18 @@ fn a_new_project_builds_with_one_item_per_module() {
     assert!(project.contains("document: EAST-WHARF-CALC-001"));
     let built = packwright(&root, &["build", "."]);
     assert_eq!(built.code, 0, "{}", built.all());
-    for module in ["belt-pickup", "chute-discharge", "hopper-outlet", "chain-payout", "hoist-loads"] {
-        assert!(built.stdout.contains(module), "an example of {module}: {}", built.stdout);
+    for module in [
+        "belt-pickup",
+        "chute-discharge",
+        "hopper-outlet",
+        "chain-payout",
+        "hoist-loads",
+    ] {
+        assert!(
+            built.stdout.contains(module),
+            "an example of {module}: {}",
+            built.stdout
+        );
     }
     assert!(root.join("package/EAST-WHARF-CALC-001-A.pdf").exists());
     // A folder that holds something is never overwritten.
@@ -33,7 +43,8 @@ fn check_reports_the_demo_clean_and_run_resolves_links_in_order() {
     assert_eq!(ran.code, 0, "{}", ran.all());
     // CV-102-LOAD takes TC-02's exit speed: the value in its result is TC-02's output.
     let tc = std::fs::read_to_string(demo.path().join("results/TC-02.yaml")).expect("TC-02 result");
-    let cv = std::fs::read_to_string(demo.path().join("results/CV-102-LOAD.yaml")).expect("CV-102 result");
+    let cv = std::fs::read_to_string(demo.path().join("results/CV-102-LOAD.yaml"))
+        .expect("CV-102 result");
     let exit_speed = tc
         .lines()
         .find(|l| l.trim_start().starts_with("exit_speed_along_belt:"))
@@ -44,7 +55,10 @@ fn check_reports_the_demo_clean_and_run_resolves_links_in_order() {
         .lines()
         .find(|l| l.trim_start().starts_with("feed_speed_along_belt:"))
         .expect("CV-102 has its feed speed");
-    assert!(fed.contains(exit_speed) && fed.contains("link TC-02.exit_speed_along_belt"), "{fed}");
+    assert!(
+        fed.contains(exit_speed) && fed.contains("link TC-02.exit_speed_along_belt"),
+        "{fed}"
+    );
     // --strict turns the demo's deliberately failing check into exit code 1.
     assert_eq!(packwright(demo.path(), &["run", ".", "--strict"]).code, 1);
 }
@@ -54,13 +68,33 @@ fn modules_explain_and_schema() {
     let demo = demo_copy();
     let listed = packwright(demo.path(), &["modules"]);
     assert_eq!(listed.code, 0);
-    for module in ["belt-pickup", "chute-discharge", "hopper-outlet", "chain-payout", "hoist-loads"] {
+    for module in [
+        "belt-pickup",
+        "chute-discharge",
+        "hopper-outlet",
+        "chain-payout",
+        "hoist-loads",
+    ] {
         assert!(listed.stdout.contains(module));
     }
-    assert!(listed.stdout.contains("skirt-seal") && listed.stdout.contains("external"), "{}", listed.stdout);
+    assert!(
+        listed.stdout.contains("skirt-seal") && listed.stdout.contains("external"),
+        "{}",
+        listed.stdout
+    );
     let explained = packwright(demo.path(), &["explain", "belt-pickup"]);
     assert_eq!(explained.code, 0);
-    for word in ["INPUTS", "mass_flow", "t/h", "default 0 m/s", "OUTPUTS", "acceleration_force", "METHOD", "REFERENCES", "ISO 5048"] {
+    for word in [
+        "INPUTS",
+        "mass_flow",
+        "t/h",
+        "default 0 m/s",
+        "OUTPUTS",
+        "acceleration_force",
+        "METHOD",
+        "REFERENCES",
+        "ISO 5048",
+    ] {
         assert!(explained.stdout.contains(word), "explain shows {word}");
     }
     let unknown = packwright(demo.path(), &["explain", "belt-pick"]);
@@ -86,5 +120,9 @@ fn us_customary_projects_show_us_units() {
     // momentum flux of reference sheet 1.1 (CONFIRMED for v0 = 0). CEMA's
     // T_am = 2.8755e-4 Q (V - Vo) gives 249.6 lbf (from memory; CEMA, Belt
     // Conveyors for Bulk Materials, ch. 6), lower by its g = 32.2 ft/s².
-    assert!(ran.stdout.contains("acceleration_force = 249.8 lbf"), "{}", ran.stdout);
+    assert!(
+        ran.stdout.contains("acceleration_force = 249.8 lbf"),
+        "{}",
+        ran.stdout
+    );
 }

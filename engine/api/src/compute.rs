@@ -660,10 +660,13 @@ pub fn parse_scalar(spec: &crate::declare::InputSpec, text: &str) -> Result<Valu
         if spec.range.contains(x) {
             return Ok(());
         }
-        let unit = dimension.si_unit();
+        let unit = match dimension.si_unit() {
+            "1" => String::new(),
+            u => format!(" {u}"),
+        };
         let show = |b: &crate::declare::Bound, word_incl: &str, word_excl: &str| {
             format!(
-                "{} {} {unit}",
+                "{} {}{unit}",
                 if b.inclusive { word_incl } else { word_excl },
                 crate::units::format_significant(b.value, 4)
             )

@@ -39,7 +39,7 @@ pub(crate) fn dispatch(command: Command, out: &Output) -> u8 {
     match command {
         Command::New { dir } => newproject::create(&dir, out),
         Command::Check { dir } => check(&dir, out),
-        Command::Run { dir, strict, fresh } => run(&dir, strict, fresh, out).0,
+        Command::Run { dir, strict, fresh } => run(&dir, strict, fresh, out),
         Command::Build { dir, strict, fresh } => build(&dir, strict, fresh, out),
         Command::Issue { rev, dir, force } => issue(&dir, &rev, force, out),
         Command::Diff {
@@ -144,24 +144,35 @@ fn check(dir: &Path, out: &Output) -> u8 {
 
 /// Runs the project and prints the results table. Returns the exit code and,
 /// on success, what ran.
-pub(crate) fn run(
-    dir: &Path,
-    strict: bool,
-    fresh: bool,
-    out: &Output,
-) -> (
-    u8,
-    Option<(packwright_core::Project, packwright_core::RunOutcome)>,
-) {
+pub(crate) fn run(dir: &Path, strict: bool, fresh: bool, out: &Output) -> u8 {
+    run_and_maybe_package(dir, strict, fresh, false, out)
+}
+
+/// Computes the project; with `package`, also makes the package before
+/// anything is written, so that a bad template leaves results/ and
+/// package/ as they were. Then writes results/ (and package/) and prints
+/// the results table.
+fn run_and_maybe_package(dir: &Path, strict: bool, fresh: bool, package: bool, out: &Output) -> u8 {
     let registry = match registry_for(dir) {
         Ok(r) => r,
-        Err(code) => return (code, None),
+        Err(code) => return code,
     };
-    let (project, outcome) =
-        match packwright_core::run_project(dir, &registry, run_options(fresh, out)) {
-            Ok(x) => x,
-            Err(e) => return (report_error(dir, &e), None),
-        };
+    let computed = match packwright_core::compute_project(dir, &registry, run_options(fresh, out)) {
+        Ok(x) => x,
+        Err(e) => return report_error(dir, &e),
+    };
+    let made = if package {
+        match make_package(&computed, &registry) {
+            Ok(p) => Some(p),
+            Err(code) => return code,
+        }
+    } else {
+        None
+    };
+    if let Err(e) = computed.write_results() {
+        return report_error(dir, &e);
+    }
+    let (project, outcome) = (&computed.project, &computed.outcome);
     let system = project.meta.units;
     let rev = project
         .meta
@@ -282,35 +293,10 @@ pub(crate) fn run(
     } else {
         OK
     };
-    (code, Some((project, outcome)))
-}
-
-fn build(dir: &Path, strict: bool, fresh: bool, out: &Output) -> u8 {
-    let (code, ran) = run(dir, strict, fresh, out);
-    let Some((project, outcome)) = ran else {
+    let Some(package) = made else {
         return code;
     };
-    let registry = match registry_for(dir) {
-        Ok(r) => r,
-        Err(code) => return code,
-    };
-    let state = match packwright_core::issued::review(
-        &project,
-        &outcome,
-        packwright_core::diff::DEFAULT_TOLERANCE,
-    ) {
-        Ok(s) => s,
-        Err(e) => {
-            eprintln!("error: {e}");
-            eprintln!("  expected: issued/ records written by `packwright issue`; restore the file from git or remove it");
-            return BAD_INPUT;
-        }
-    };
-    if let Some(stale) = &state.stale {
-        eprintln!("warning: {stale}; the package says so on every page.");
-    }
-    let review = packwright_report::Review::from_state(&state);
-    match packwright_report::build_and_write(&project, &outcome, &registry, &review) {
+    match packwright_report::write(project, package) {
         Ok(written) => {
             out.say(format!(
                 "package: {} ({} pages)",
@@ -332,6 +318,33 @@ fn build(dir: &Path, strict: bool, fresh: bool, out: &Output) -> u8 {
             e.exit_code()
         }
     }
+}
+
+fn build(dir: &Path, strict: bool, fresh: bool, out: &Output) -> u8 {
+    run_and_maybe_package(dir, strict, fresh, true, out)
+}
+
+/// Makes (does not write) the package of a computed project, with the
+/// review against issued revisions.
+fn make_package(
+    computed: &packwright_core::Computed,
+    registry: &packwright_core::Registry,
+) -> Result<packwright_report::Package, u8> {
+    let (project, outcome) = (&computed.project, &computed.outcome);
+    let state = packwright_core::issued::review(project, outcome, packwright_core::diff::DEFAULT_TOLERANCE).map_err(|e| {
+        eprintln!("error: {e}");
+        eprintln!("  expected: issued/ records written by `packwright issue`; restore the file from git or remove it");
+        BAD_INPUT
+    })?;
+    if let Some(stale) = &state.stale {
+        eprintln!("warning: {stale}; the package says so on every page.");
+    }
+    let review = packwright_report::Review::from_state(&state);
+    packwright_report::make(project, outcome, registry, &review).map_err(|e| {
+        eprintln!("{e}");
+        eprintln!("nothing was written; results/ and package/ were left as they were.");
+        e.exit_code()
+    })
 }
 
 fn modules(dir: &Path, out: &Output) -> u8 {

@@ -113,19 +113,30 @@ pub fn replace_dir(target: &Path, files: &[(String, Vec<u8>)]) -> io::Result<()>
     Ok(())
 }
 
-/// Writes one file atomically: the new content goes to a hidden sibling
-/// and is renamed over the target.
+/// Writes one file atomically: the new content goes to a hidden file beside
+/// the target's folder (so a crash leaves nothing inside the folder, where
+/// `git add issued/` would pick it up) and is renamed over the target.
 pub fn write_file(target: &Path, bytes: &[u8]) -> io::Result<()> {
-    if let Some(parent) = target.parent() {
-        fs::create_dir_all(parent)?;
-    }
+    let folder = target
+        .parent()
+        .ok_or_else(|| io::Error::new(io::ErrorKind::InvalidInput, "target has no folder"))?;
+    fs::create_dir_all(folder)?;
+    let outside = folder.parent().unwrap_or(folder);
+    let folder_name = folder
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_default();
+    let file_name = target
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_default();
+    let stand_in = outside.join(format!("{folder_name}-{file_name}"));
+    clean_leftovers(&stand_in);
     clean_leftovers(target);
-    let staging = hidden_sibling(target, "new")?;
+    let staging = hidden_sibling(&stand_in, "new")?;
     write_synced(&staging, bytes)?;
     fs::rename(&staging, target)?;
-    if let Some(parent) = target.parent() {
-        sync_dir(parent)?;
-    }
+    sync_dir(folder)?;
     Ok(())
 }
 

@@ -120,19 +120,48 @@ pub struct RunOptions {
     pub on_plan: Option<std::sync::Arc<dyn Fn(usize) + Send + Sync>>,
 }
 
-/// Loads, validates and computes a project, then writes `results/` whole.
-/// Nothing is written unless every item was computed.
-pub fn run_project(
+/// A computed project whose results are not written yet.
+pub struct Computed {
+    /// The project.
+    pub project: Project,
+    /// What the run produced.
+    pub outcome: RunOutcome,
+    files: Vec<(String, Vec<u8>)>,
+    store: cache::Cache,
+}
+
+impl Computed {
+    /// Replaces `results/` with this run's files (atomically) and stores
+    /// the computed outcomes in the cache.
+    pub fn write_results(&self) -> Result<(), EngineError> {
+        fsio::replace_dir(&self.project.root.join("results"), &self.files)
+            .map_err(|e| EngineError::Io(format!("cannot write results/: {e}")))?;
+        self.store.save(&self.outcome);
+        Ok(())
+    }
+}
+
+/// Loads, validates and computes a project, writing nothing. Every item
+/// must compute: otherwise the input errors (exit 2) or the calculation
+/// errors (exit 1) are returned.
+pub fn compute_project(
     root: &Path,
     registry: &Registry,
     options: RunOptions,
-) -> Result<(Project, RunOutcome), EngineError> {
+) -> Result<Computed, EngineError> {
     let (project, plan) = check(root, registry)?;
     let store = cache::Cache::open(&project.root);
-    let outcome = run::run(
+    if let Some(on_plan) = &options.on_plan {
+        on_plan(plan.items.len());
+    }
+    let outcome = run::run_with_progress(
         &plan,
         registry,
         if options.fresh { None } else { Some(&store) },
+        options
+            .progress
+            .as_deref()
+            .map(|p| p as &(dyn Fn(&str) + Sync)),
     );
     let input_errors: Vec<Diagnostic> = outcome
         .failures
@@ -164,8 +193,22 @@ pub fn run_project(
         return Err(EngineError::Calculation(outcome.failures, outcome.skipped));
     }
     let files = results::result_files(&outcome, &key_outputs(registry));
-    fsio::replace_dir(&project.root.join("results"), &files)
-        .map_err(|e| EngineError::Io(format!("cannot write results/: {e}")))?;
-    store.save(&outcome);
-    Ok((project, outcome))
+    Ok(Computed {
+        project,
+        outcome,
+        files,
+        store,
+    })
+}
+
+/// Loads, validates and computes a project, then writes `results/` whole.
+/// Nothing is written unless every item was computed.
+pub fn run_project(
+    root: &Path,
+    registry: &Registry,
+    options: RunOptions,
+) -> Result<(Project, RunOutcome), EngineError> {
+    let computed = compute_project(root, registry, options)?;
+    computed.write_results()?;
+    Ok((computed.project, computed.outcome))
 }

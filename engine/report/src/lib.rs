@@ -290,8 +290,13 @@ pub fn build_and_write(
     review: &Review,
 ) -> Result<Written, ReportError> {
     let package = make(project, outcome, registry, review)?;
+    write(project, package)
+}
+
+/// Replaces `package/` with a made package: its PDF, Typst source and
+/// plots. Images a project keeps in package/ for its templates stay.
+pub fn write(project: &Project, package: Package) -> Result<Written, ReportError> {
     let dir = project.root.join("package");
-    // Images a project keeps in package/ for its templates stay.
     let mut files = Vec::new();
     if let Ok(entries) = std::fs::read_dir(&dir) {
         for entry in entries.flatten() {
