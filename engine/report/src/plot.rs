@@ -129,6 +129,53 @@ pub fn svg(plot: &Plot, system: UnitSystem) -> Result<String, String> {
     draw(plot, &layers, (x0, x1), (y0, y1), height, xu, yu, None)
 }
 
+/// The corner of the plot area with the fewest points under it, so the
+/// legend hides as little of the data as it can.
+fn emptiest_corner(layers: &[Layer], (x0, x1): (f64, f64), (y0, y1): (f64, f64)) -> SeriesLabelPosition {
+    let (w, h) = (x1 - x0, y1 - y0);
+    let corners = [
+        (SeriesLabelPosition::UpperRight, 0.55, 0.6),
+        (SeriesLabelPosition::UpperLeft, 0.0, 0.6),
+        (SeriesLabelPosition::LowerRight, 0.55, 0.0),
+        (SeriesLabelPosition::LowerLeft, 0.0, 0.0),
+    ];
+    // Lines are sampled between their points, so a long straight segment
+    // through a corner counts too.
+    let samples: Vec<(f64, f64)> = layers
+        .iter()
+        .flat_map(|l| {
+            let pts = &l.2;
+            let mut out: Vec<(f64, f64)> = pts.clone();
+            for pair in pts.windows(2) {
+                for k in 1..10 {
+                    let t = k as f64 / 10.0;
+                    out.push((pair[0].0 + t * (pair[1].0 - pair[0].0), pair[0].1 + t * (pair[1].1 - pair[0].1)));
+                }
+            }
+            out
+        })
+        .collect();
+    let count = |fx: f64, fy: f64| {
+        samples
+            .iter()
+            .filter(|(x, y)| {
+                let (u, v) = ((x - x0) / w, (y - y0) / h);
+                (fx..fx + 0.45).contains(&u) && (fy..fy + 0.4).contains(&v)
+            })
+            .count()
+    };
+    let mut best = 0;
+    let mut least = usize::MAX;
+    for (i, (_, fx, fy)) in corners.iter().enumerate() {
+        let n = count(*fx, *fy);
+        if n < least {
+            least = n;
+            best = i;
+        }
+    }
+    corners[best].0.clone()
+}
+
 #[allow(clippy::too_many_arguments)]
 fn draw(
     plot: &Plot,
@@ -216,7 +263,7 @@ fn draw(
                 .label_font((FONT, 14))
                 .background_style(WHITE.mix(0.85))
                 .border_style(RGBColor(0xaa, 0xaa, 0xaa))
-                .position(SeriesLabelPosition::UpperRight)
+                .position(emptiest_corner(layers, (x0, x1), (y0, y1)))
                 .draw()
                 .map_err(|x| e(&x))?;
         }
