@@ -48,6 +48,8 @@ pub struct TypstFailure {
     pub file: String,
     /// The item whose section failed, if any.
     pub item: Option<String>,
+    /// Line in the template, when the generated line carries its mark.
+    pub template_line: Option<usize>,
     /// Line in the generated `.typ` source.
     pub line: usize,
     /// The generated line.
@@ -81,18 +83,20 @@ impl fmt::Display for ReportError {
                     template,
                     file,
                     item,
+                    template_line,
                     line,
                     text,
                     message,
                     ..
                 } = failure.as_ref();
+                let at_line = template_line.map(|n| format!(":{n}")).unwrap_or_default();
                 let at = item
                     .as_deref()
                     .map(|i| format!(" (section of item `{i}`)"))
                     .unwrap_or_default();
                 write!(
                     f,
-                    "error: the Typst made from template `{template}` [{file}]{at} does not typeset: {message}\n  at line {line} of the generated source: {}",
+                    "error: {file}{at_line}: the Typst made from template `{template}`{at} does not typeset: {message}\n  at line {line} of the generated source: {}",
                     text.trim()
                 )
             }
@@ -235,12 +239,18 @@ fn typst_error(
         .unwrap_or("")
         .to_string();
     let segment = segments.iter().rev().find(|s| s.first_line <= line);
+    let marked = templates::template_line(source.text(), line);
     ReportError::Typst(Box::new(TypstFailure {
         template: segment.map(|s| s.template.clone()).unwrap_or_default(),
         file: segment.map(|s| s.file.clone()).unwrap_or_default(),
         item: segment.and_then(|s| s.item.clone()),
+        template_line: marked.as_ref().map(|(_, n)| *n),
         line,
-        text,
+        text: text
+            .split(templates::LINE_MARK)
+            .next()
+            .unwrap_or("")
+            .to_string(),
         message,
         overridden: segment.is_some_and(|s| s.file != "(built in)"),
     }))

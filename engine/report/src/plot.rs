@@ -131,7 +131,11 @@ pub fn svg(plot: &Plot, system: UnitSystem) -> Result<String, String> {
 
 /// The corner of the plot area with the fewest points under it, so the
 /// legend hides as little of the data as it can.
-fn emptiest_corner(layers: &[Layer], (x0, x1): (f64, f64), (y0, y1): (f64, f64)) -> SeriesLabelPosition {
+fn emptiest_corner(
+    layers: &[Layer],
+    (x0, x1): (f64, f64),
+    (y0, y1): (f64, f64),
+) -> SeriesLabelPosition {
     let (w, h) = (x1 - x0, y1 - y0);
     let corners = [
         (SeriesLabelPosition::UpperRight, 0.55, 0.6),
@@ -149,7 +153,10 @@ fn emptiest_corner(layers: &[Layer], (x0, x1): (f64, f64), (y0, y1): (f64, f64))
             for pair in pts.windows(2) {
                 for k in 1..10 {
                     let t = k as f64 / 10.0;
-                    out.push((pair[0].0 + t * (pair[1].0 - pair[0].0), pair[0].1 + t * (pair[1].1 - pair[0].1)));
+                    out.push((
+                        pair[0].0 + t * (pair[1].0 - pair[0].0),
+                        pair[0].1 + t * (pair[1].1 - pair[0].1),
+                    ));
                 }
             }
             out

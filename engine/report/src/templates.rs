@@ -159,9 +159,10 @@ impl Templates {
         hb.register_escape_fn(typst_markup);
         let mut files = std::collections::BTreeMap::new();
         for (name, text) in DEFAULTS {
-            hb.register_template_string(name, text).map_err(|e| {
-                template_error(name, &format!("templates/{name}.typ.hbs (built in)"), &e)
-            })?;
+            hb.register_template_string(name, with_line_marks(name, text))
+                .map_err(|e| {
+                    template_error(name, &format!("templates/{name}.typ.hbs (built in)"), &e)
+                })?;
             files.insert(name.to_string(), "(built in)".to_string());
         }
         let Some(dir) = project_templates.filter(|d| d.is_dir()) else {
@@ -197,7 +198,10 @@ impl Templates {
                 line: None,
                 message: format!("cannot read the template (it must be UTF-8 text): {e}"),
             })?;
-            hb.register_template_string(name, text)
+            // A template that does not parse is reported with its own lines.
+            hb.register_template_string(name, &text)
+                .map_err(|e| template_error(name, &shown, &e))?;
+            hb.register_template_string(name, with_line_marks(name, &text))
                 .map_err(|e| template_error(name, &shown, &e))?;
             files.insert(name.to_string(), shown);
         }
@@ -281,6 +285,52 @@ impl Templates {
         push("references", None, rendered, &mut text);
         Ok((text, segments))
     }
+}
+
+/// The marker that ends each generated line: the template and its line.
+pub const LINE_MARK: &str = "// tpl ";
+
+/// Appends a Typst comment naming the template and line to every line of a
+/// template whose Handlebars tags are complete on that line, so that a Typst
+/// error in the generated source can be traced to the template line.
+fn with_line_marks(name: &str, text: &str) -> String {
+    let mut out = String::with_capacity(text.len() * 2);
+    let mut in_comment = false;
+    for (i, line) in text.lines().enumerate() {
+        out.push_str(line);
+        let opens = line.matches("{{").count();
+        let closes = line.matches("}}").count();
+        if line.contains("{{!--") {
+            in_comment = !line.contains("--}}");
+        } else if in_comment && line.contains("--}}") {
+            in_comment = false;
+            out.push('\n');
+            continue;
+        }
+        if !in_comment
+            && opens == closes
+            && !line.trim().is_empty()
+            && !line.trim_end().ends_with("}}")
+        {
+            out.push_str(&format!(" {LINE_MARK}{name}:{}", i + 1));
+        }
+        out.push('\n');
+    }
+    out
+}
+
+/// The template line a generated line came from: the first mark on it or
+/// on the lines after it.
+pub fn template_line(source: &str, line: usize) -> Option<(String, usize)> {
+    source
+        .lines()
+        .skip(line.saturating_sub(1))
+        .take(200)
+        .find_map(|l| {
+            let mark = l.rsplit_once(LINE_MARK)?.1;
+            let (name, n) = mark.rsplit_once(':')?;
+            Some((name.to_string(), n.trim().parse().ok()?))
+        })
 }
 
 fn walk_templates(root: &Path) -> Vec<std::path::PathBuf> {
