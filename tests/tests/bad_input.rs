@@ -712,7 +712,9 @@ fn a_template_with_a_typst_error_is_refused() {
     assert_template_refused(
         dir.path(),
         &[
-            "template `cover` [templates/cover.typ.hbs]",
+            // The template's own file and line, then the generated line.
+            "templates/cover.typ.hbs:3:",
+            "template `cover`",
             "does not typeset",
             "unclosed delimiter",
             "at line",
@@ -725,7 +727,7 @@ fn a_template_with_a_typst_error_is_refused() {
     assert_template_refused(
         dir.path(),
         &[
-            "templates/modules/belt-pickup.typ.hbs",
+            "templates/modules/belt-pickup.typ.hbs:2:",
             "section of item `BP-1`",
             "unknown variable: no-such-function",
         ],
@@ -737,6 +739,18 @@ fn a_template_cannot_read_outside_the_package() {
     let dir = built_then_overridden("cover.typ.hbs", b"= Cover\n#read(\"/etc/passwd\")\n");
     let out = assert_template_refused(dir.path(), &["templates/cover.typ.hbs", "does not typeset"]);
     assert!(!out.contains("root:"), "{out}");
+}
+
+#[test]
+fn a_template_cannot_reach_the_network_or_files_beside_the_project() {
+    // A Typst package would be downloaded by the Typst command line; the
+    // package world has no packages and no network.
+    let dir = built_then_overridden("cover.typ.hbs", b"#import \"@preview/cetz:0.3.4\": canvas\n= Cover\n");
+    assert_template_refused(dir.path(), &["templates/cover.typ.hbs:1:", "does not typeset", "packages are not available"]);
+    // A project file beside the package folder is outside the sandbox.
+    let dir = built_then_overridden("cover.typ.hbs", b"= Cover\n#read(\"../project.yaml\")\n");
+    let out = assert_template_refused(dir.path(), &["templates/cover.typ.hbs:2:", "does not typeset"]);
+    assert!(!out.contains("revisions:"), "{out}");
 }
 
 #[test]

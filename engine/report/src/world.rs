@@ -128,6 +128,11 @@ impl World for PackageWorld {
     }
 
     fn source(&self, id: FileId) -> FileResult<Source> {
+        if !matches!(id.get().root(), VirtualRoot::Project) {
+            return Err(FileError::Other(Some(
+                "packages are not available in a packwright package".into(),
+            )));
+        }
         self.sources
             .get(&id)
             .cloned()

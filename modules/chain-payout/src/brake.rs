@@ -24,8 +24,8 @@ pub struct BrakedChain {
     pub freeboard: Length,
     /// Brake force at the chain while the brake slips.
     pub brake_force: Force,
-    /// Paid-out length at which the brake is applied.
-    pub brake_at: Length,
+    /// When the brake is applied: at a paid-out length or at a chain speed.
+    pub brake_at: BrakePoint,
     /// Whether links are picked up from rest in the locker (costing `λ v²`).
     pub locker_pickup: bool,
     /// Quadratic drag factor `c` in `F_D = c v²` (`½ ρ C_D A`).
@@ -35,6 +35,27 @@ pub struct BrakedChain {
     pub end_length: Length,
     /// Gravity.
     pub g: Acceleration,
+}
+
+/// When the brake is applied during the let-go.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum BrakePoint {
+    /// Once this length has been paid out (0: on from the start).
+    Length(Length),
+    /// At the first instant the chain speed reaches this speed (0: on from
+    /// the start). If the free run never gets that fast the brake is never
+    /// applied.
+    Speed(Velocity),
+}
+
+impl BrakePoint {
+    /// Whether the brake is on from the release.
+    pub fn from_start(&self) -> bool {
+        match self {
+            BrakePoint::Length(x) => x.to_si() <= 0.0,
+            BrakePoint::Speed(v) => v.to_si() <= 0.0,
+        }
+    }
 }
 
 /// The weight of the end mass and of the hanging chain at paid-out length
@@ -126,11 +147,15 @@ pub struct BrakeRun {
 
 /// Integrates the let-go: free run to `brake_at`, then the brake slips at
 /// `brake_force` until the chain stops or the run reaches `end_length`.
+///
+/// The application point is a terminal event of the integration (paid-out
+/// length, or chain speed rising through the set speed), located by regula
+/// falsi on the integrator's own step, so the state at application carries
+/// the integration accuracy and no interpolation error.
 pub fn let_go(c: &BrakedChain, tol: &Tolerance) -> Result<BrakeRun, OdeError> {
     let lambda = c.lambda.to_si();
     let m = c.end_mass.to_si();
     let fb = c.brake_force.to_si();
-    let x_a = c.brake_at.to_si();
     let x_end = c.end_length.to_si();
     let cd = c.drag_factor.to_si();
     let pickup = if c.locker_pickup { 1.0 } else { 0.0 };
@@ -163,7 +188,11 @@ pub fn let_go(c: &BrakedChain, tol: &Tolerance) -> Result<BrakeRun, OdeError> {
             brake: si(f),
         }
     };
-    let ev_apply = |_t: f64, s: &[f64; 6]| s[0] - x_a;
+    let point = c.brake_at;
+    let ev_apply = move |_t: f64, s: &[f64; 6]| match point {
+        BrakePoint::Length(x_a) => s[0] - x_a.to_si(),
+        BrakePoint::Speed(v_a) => s[1] - v_a.to_si(),
+    };
     let ev_end = |_t: f64, s: &[f64; 6]| s[0] - x_end;
     let ev_stop = |_t: f64, s: &[f64; 6]| -s[1];
 
@@ -172,7 +201,7 @@ pub fn let_go(c: &BrakedChain, tol: &Tolerance) -> Result<BrakeRun, OdeError> {
     let mut t = 0.0;
     let mut applied = None;
     let mut ending = BrakeEnding::ReachedEnd;
-    let braking_from_start = x_a <= 0.0;
+    let braking_from_start = c.brake_at.from_start();
     if braking_from_start && fb >= weight(0.0) {
         let s = sample(0.0, &state, true);
         samples.push(s);
@@ -262,7 +291,7 @@ mod tests {
             submerged_factor: 1.0,
             freeboard: si(0.0),
             brake_force: si(fb),
-            brake_at: si(brake_at),
+            brake_at: BrakePoint::Length(si(brake_at)),
             locker_pickup: pickup,
             drag_factor: si(0.0),
             end_length: si(end),
@@ -316,6 +345,89 @@ mod tests {
             ) < 1e-8
         );
         assert!(rel(run.peak_brake_load.to_si(), 26_160.0) < 1e-12);
+    }
+
+    #[test]
+    fn brake_applied_at_a_speed_matches_the_hand_calculation() {
+        // Hand calculation (DERIVED from the momentum equation of reference
+        // sheet §3.4), in air, no drag, links not picked up from rest, so
+        // (M + λx) dv/dt = (M + λx) g − F_b:
+        //   free run:  dv/dt = g, a free fall whatever M and λ;
+        //   set speed v_b = 9.81 m/s with g = 9.81 m/s²:
+        //     reached after t_b = v_b / g = 1 s,
+        //     at x_b = v_b² / (2 g) = 96.2361 / 19.62 = 4.905 m.
+        //   braking:   v dv/dx = g − F_b / (M + λx), so with u = v²/2
+        //     u = v_b²/2 + g (x − x_b) − (F_b/λ) ln[(M + λx)/(M + λx_b)]
+        //   M = 1000 kg, λ = 50 kg/m; choose the stop 10 m after x_b:
+        //     m_b = 1000 + 50 × 4.905 = 1245.25 kg,
+        //     m_s = 1000 + 50 × 14.905 = 1745.25 kg,
+        //     ln(m_s/m_b) = ln(1.4015258) = 0.3375615,
+        //     F_b = λ (v_b²/2 + g × 10) / ln(m_s/m_b)
+        //         = 50 × (48.11805 + 98.1) / 0.3375615 = 21 657.987 N
+        //   brake energy = F_b × 10 m = 216.580 kJ.
+        let fb = 50.0 * (9.81f64 * 9.81 / 2.0 + 98.1) / (1745.25f64 / 1245.25).ln();
+        assert!((fb - 21_657.987).abs() < 1e-3);
+        let c = BrakedChain {
+            brake_at: BrakePoint::Speed(si(9.81)),
+            ..in_air(fb, 0.0, false, 100.0)
+        };
+        let run = let_go(&c, &Tolerance::default()).unwrap();
+        assert_eq!(run.ending, BrakeEnding::Stopped);
+        let a = run.applied.unwrap();
+        assert!(rel(a.speed.to_si(), 9.81) < 1e-10);
+        assert!(rel(a.time.to_si(), 1.0) < 1e-9);
+        assert!(rel(a.paid_out.to_si(), 4.905) < 1e-9);
+        assert!(rel(run.end.paid_out.to_si(), 14.905) < 1e-8);
+        assert!(rel(run.brake_energy.to_si(), fb * 10.0) < 1e-7);
+        assert!(rel(run.peak_brake_load.to_si(), fb) < 1e-12);
+        // Without pickup the wheel-side tension is the brake force alone.
+        assert!(rel(run.peak_tension.to_si(), fb) < 1e-12);
+    }
+
+    #[test]
+    fn a_speed_that_is_never_reached_leaves_the_brake_off() {
+        // Drag c v² bounds the free-run speed: without pickup the terminal
+        // speed is sqrt((M + λx) g / c) = sqrt(1500 × 9.81 / 1000) = 3.836
+        // m/s at most over the 10 m run (DERIVED), below the set 5 m/s.
+        let c = BrakedChain {
+            brake_at: BrakePoint::Speed(si(5.0)),
+            drag_factor: si(1000.0),
+            ..in_air(50_000.0, 0.0, false, 10.0)
+        };
+        let run = let_go(&c, &Tolerance::default()).unwrap();
+        assert_eq!(run.ending, BrakeEnding::ReachedEnd);
+        assert!(run.applied.is_none());
+        assert!(run.max_speed.to_si() < (1500.0f64 * 9.81 / 1000.0).sqrt());
+        assert_eq!(run.brake_energy.to_si(), 0.0);
+    }
+
+    #[test]
+    fn the_speed_form_and_the_length_form_agree() {
+        // The let-go is deterministic: braking at the length where the speed
+        // form applied the brake must give the same run afterwards.
+        let base = BrakedChain {
+            submerged_factor: 1.0 - 1025.0 / 7850.0,
+            freeboard: si(4.0),
+            drag_factor: si(30.0),
+            ..in_air(40_000.0, 0.0, true, 80.0)
+        };
+        let by_speed = BrakedChain {
+            brake_at: BrakePoint::Speed(si(8.0)),
+            ..base
+        };
+        let run_v = let_go(&by_speed, &Tolerance::default()).unwrap();
+        let a = run_v.applied.unwrap();
+        assert!(rel(a.speed.to_si(), 8.0) < 1e-10);
+        let by_length = BrakedChain {
+            brake_at: BrakePoint::Length(a.paid_out),
+            ..base
+        };
+        let run_x = let_go(&by_length, &Tolerance::default()).unwrap();
+        assert_eq!(run_v.ending, BrakeEnding::Stopped);
+        assert_eq!(run_x.ending, BrakeEnding::Stopped);
+        assert!(rel(run_x.applied.unwrap().speed.to_si(), 8.0) < 1e-8);
+        assert!(rel(run_x.end.paid_out.to_si(), run_v.end.paid_out.to_si()) < 1e-8);
+        assert!(rel(run_x.brake_energy.to_si(), run_v.brake_energy.to_si()) < 1e-8);
     }
 
     #[test]
@@ -377,7 +489,7 @@ mod tests {
         fn energy_is_accounted_for(
             fb in 0.0f64..60_000.0, brake_at in 0.0f64..30.0, pickup in any::<bool>(),
             wet in any::<bool>(), freeboard in 0.0f64..10.0, drag in 0.0f64..40.0,
-            end in 5.0f64..80.0,
+            end in 5.0f64..80.0, by_speed in any::<bool>(), brake_speed in 0.0f64..15.0,
         ) {
             // Potential released + feed = kinetic + brake + pickup + drag
             // (DERIVED balance of the equation of motion).
@@ -385,6 +497,11 @@ mod tests {
                 submerged_factor: if wet { 1.0 - 1025.0 / 7850.0 } else { 1.0 },
                 freeboard: si(freeboard),
                 drag_factor: si(drag),
+                brake_at: if by_speed {
+                    BrakePoint::Speed(si(brake_speed))
+                } else {
+                    BrakePoint::Length(si(brake_at))
+                },
                 ..in_air(fb, brake_at, pickup, end)
             };
             let run = let_go(&c, &Tolerance::default()).unwrap();
@@ -393,6 +510,10 @@ mod tests {
             let scale = input.to_si().abs().max(1.0);
             prop_assert!((input - out).to_si().abs() <= 1e-7 * scale);
             prop_assert!(run.peak_tension.to_si().is_finite());
+            // The speed form applies the brake on the set speed.
+            if let (true, Some(a)) = (by_speed && brake_speed > 0.0, run.applied) {
+                prop_assert!((a.speed.to_si() - brake_speed).abs() <= 1e-9 * brake_speed.max(1.0));
+            }
         }
     }
 }

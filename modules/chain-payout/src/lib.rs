@@ -13,7 +13,7 @@ pub mod chain;
 pub mod ode;
 pub mod pile;
 
-use crate::brake::{BrakeEnding, BrakedChain};
+use crate::brake::{BrakeEnding, BrakePoint, BrakedChain};
 use crate::chain::Grade;
 use crate::ode::Tolerance;
 use crate::pile::{PileChain, Regime, StartEnding};
@@ -34,7 +34,7 @@ const PILE_ONLY: [&str; 8] = [
     "clearance_above_pile",
 ];
 /// Inputs only the brake case reads.
-const BRAKE_ONLY: [&str; 11] = [
+const BRAKE_ONLY: [&str; 12] = [
     "end_mass",
     "submerged",
     "water_density",
@@ -43,6 +43,7 @@ const BRAKE_ONLY: [&str; 11] = [
     "depth",
     "brake_force",
     "brake_applied_at",
+    "brake_applied_at_speed",
     "locker_pickup",
     "chain_stopper",
     "drag_factor",
@@ -243,7 +244,16 @@ impl Module for ChainPayout {
                     D::Length,
                     "brake_applied_at",
                     "brake case: paid-out length at which the brake is applied (0: on from the \
-                     start)",
+                     start); give this or brake_applied_at_speed, not both",
+                )
+                .optional()
+                .at_least(0.0),
+                q(
+                    D::Velocity,
+                    "brake_applied_at_speed",
+                    "brake case: chain speed at which the brake is applied, at the first \
+                     instant the running chain reaches it (0: on from the start); give this or \
+                     brake_applied_at, not both",
                 )
                 .optional()
                 .at_least(0.0),
@@ -662,7 +672,8 @@ fn method() -> Vec<MethodStep> {
         MethodStep::text(
             "Brake case. The end mass hangs below the wheel on the paid-out length x; links are \
              picked up from rest in the locker. The brake slips at a constant force from the \
-             paid-out length where it is applied.",
+             instant it is applied: when a set length has been paid out, or when the chain \
+             first reaches a set speed.",
         ),
         MethodStep::equation(
             "Momentum of the end mass and hanging chain, with primes for submerged weights.",
@@ -671,6 +682,15 @@ fn method() -> Vec<MethodStep> {
         MethodStep::equation(
             "Submerged weight below the freeboard.",
             "M' = M (1 - rho_w / rho_s), quad lambda' = lambda (1 - rho_w / rho_s)",
+        ),
+        MethodStep::equation(
+            "The instant t_a the brake is applied is the first at which the paid-out length \
+             reaches the set length x_\"set\", or the chain speed the set speed v_\"set\". It \
+             is located as an event of the integration (regula falsi on the step in which the \
+             set value is crossed), so the speed at the brake equals v_\"set\" to the \
+             integration accuracy. A set speed the free run never reaches leaves the brake off.",
+            "x(t_a) = x_\"set\" quad \"or\" quad v(t_a) = v_\"set\", quad v(t) < v_\"set\" \
+             \" for \" t < t_a",
         ),
         MethodStep::equation(
             "Chain tension outboard of the wheel, and the brake energy.",
@@ -847,7 +867,29 @@ fn validate(inputs: &Inputs) -> Vec<CalcError> {
     } else {
         need("end_mass", "1500 kg", &mut errors);
         need("brake_force", "120 kN", &mut errors);
-        need("brake_applied_at", "25 m", &mut errors);
+        match (
+            inputs.values.contains_key("brake_applied_at"),
+            inputs.values.contains_key("brake_applied_at_speed"),
+        ) {
+            (false, false) => errors.push(CalcError::input(
+                "brake_applied_at",
+                at_case.clone(),
+                "the brake case needs when the brake is applied, as a paid-out length \
+                 (`brake_applied_at`) or a chain speed (`brake_applied_at_speed`), and neither \
+                 is given",
+                "`brake_applied_at: 25 m` or `brake_applied_at_speed: 4 m/s` under `inputs:`",
+            )),
+            (true, true) => errors.push(CalcError::input(
+                "brake_applied_at_speed",
+                at_case.clone(),
+                "the brake case takes when the brake is applied either as a paid-out length \
+                 (`brake_applied_at`) or as a chain speed (`brake_applied_at_speed`), and both \
+                 are given",
+                "only one of `brake_applied_at: 25 m` and `brake_applied_at_speed: 4 m/s` under \
+                 `inputs:`",
+            )),
+            _ => {}
+        }
         if !inputs.values.contains_key("depth") && !inputs.values.contains_key("payout_length") {
             errors.push(CalcError::input(
                 "depth",
@@ -1221,7 +1263,10 @@ fn compute_brake(
             si(0.0)
         },
         brake_force: inputs.quantity("brake_force")?,
-        brake_at: inputs.quantity("brake_applied_at")?,
+        brake_at: match inputs.opt_quantity::<Length>("brake_applied_at")? {
+            Some(x) => BrakePoint::Length(x),
+            None => BrakePoint::Speed(inputs.quantity("brake_applied_at_speed")?),
+        },
         locker_pickup: inputs.flag("locker_pickup")?,
         drag_factor: inputs.quantity("drag_factor")?,
         end_length,
@@ -1232,11 +1277,15 @@ fn compute_brake(
         max_step: 0.02 * (end_length.to_si() / g.to_si()).sqrt(),
         ..Tolerance::default()
     };
+    let point_input = match c.brake_at {
+        BrakePoint::Length(_) => "brake_applied_at",
+        BrakePoint::Speed(_) => "brake_applied_at_speed",
+    };
     let run = brake::let_go(&c, &tol).map_err(|e| {
         CalcError::numerical(
             "let-go",
             &e.to_string(),
-            &["end_mass", "brake_force", "brake_applied_at", "depth"],
+            &["end_mass", "brake_force", point_input, "depth"],
         )
     })?;
 
@@ -1306,13 +1355,23 @@ fn compute_brake(
                 end_length.to_si()
             )
         } else if run.applied.is_none() {
-            format!(
-                "The brake is applied at {:.2} m, beyond the {:.2} m at which {end_word}, so the \
-                 chain is still running at {:.2} m/s when it gets there.",
-                c.brake_at.to_si(),
-                end_length.to_si(),
-                run.end.speed.to_si()
-            )
+            match c.brake_at {
+                BrakePoint::Length(x) => format!(
+                    "The brake is applied at {:.2} m, beyond the {:.2} m at which {end_word}, so \
+                     the chain is still running at {:.2} m/s when it gets there.",
+                    x.to_si(),
+                    end_length.to_si(),
+                    run.end.speed.to_si()
+                ),
+                BrakePoint::Speed(v) => format!(
+                    "The chain never reaches the {:.2} m/s at which the brake is to be applied \
+                     before {end_word} at {:.2} m, so the brake stays off and the chain is still \
+                     running at {:.2} m/s when it gets there.",
+                    v.to_si(),
+                    end_length.to_si(),
+                    run.end.speed.to_si()
+                ),
+            }
         } else {
             format!(
                 "The brake cannot stop the chain before {end_word} at {:.2} m: it is still \

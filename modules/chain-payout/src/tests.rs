@@ -314,3 +314,185 @@ fn unused_inputs_of_the_other_case_are_noted() {
     .unwrap();
     assert!(out.notes.iter().any(|n| n.contains("brake_force")));
 }
+
+#[test]
+fn brake_applied_at_a_speed_matches_the_hand_calculation() {
+    // Hand calculation (DERIVED from the momentum equation of reference
+    // sheet §3.4). Chain and anchor submerged from the wheel down (freeboard
+    // 0), no locker pickup, no drag, so (M + λx) dv/dt = k g_n (M + λx) − F_b
+    // with k = 1 − 1025/7850 = 0.869427 (Archimedes):
+    //   free run: a free fall at g_eff = k g_n = 0.869427 × 9.80665
+    //             = 8.526164 m/s²;
+    //   set speed v_b = 5 m/s, reached after t_b = 5 / 8.526164 = 0.586430 s
+    //             at x_b = 5² / (2 × 8.526164) = 1.466076 m;
+    //   braking:  with u = v²/2, du/dx = g_eff − F_b/(M + λx), so
+    //             u = v_b²/2 + g_eff (x − x_b) − (F_b/λ) ln[(M + λx)/(M + λx_b)];
+    //   M = 1000 kg, λ = 50 kg/m; choose the stop 8 m after x_b:
+    //             m_b = 1000 + 50 × 1.466076 = 1073.3038 kg,
+    //             m_s = m_b + 50 × 8 = 1473.3038 kg,
+    //             ln(m_s/m_b) = ln(1.3726811) = 0.3167658,
+    //             F_b = 50 × (12.5 + 8 × 8.526164) / 0.3167658
+    //                 = 50 × 80.70931 / 0.3167658 = 12 739.587 N;
+    //   brake energy F_b × 8 m = 101.917 kJ; the stopped load then weighs
+    //   8.526164 × 1473.3038 = 12 561.7 N < F_b, so the brake holds it.
+    let k = 1.0 - 1025.0 / 7850.0;
+    let g_eff = k * GN;
+    let x_b = 25.0 / (2.0 * g_eff);
+    let (m_b, m_s) = (1000.0 + 50.0 * x_b, 1000.0 + 50.0 * (x_b + 8.0));
+    let fb = 50.0 * (12.5 + 8.0 * g_eff) / (m_s / m_b).ln();
+    assert!((x_b - 1.466_076).abs() < 1e-6);
+    assert!((fb - 12_739.587).abs() < 1e-3);
+    let fb_text = format!("{fb} N");
+    let out = run(&[
+        ("case", "brake"),
+        ("mass_per_length", "50 kg/m"),
+        ("breaking_load", "900 kN"),
+        ("end_mass", "1000 kg"),
+        ("submerged", "true"),
+        ("locker_pickup", "false"),
+        ("depth", "60 m"),
+        ("brake_force", &fb_text),
+        ("brake_applied_at_speed", "5 m/s"),
+    ])
+    .unwrap();
+    all_finite(&out);
+    assert!(rel(value(&out, "speed_at_brake"), 5.0) < 1e-9);
+    assert!(rel(value(&out, "stopping_length"), 8.0) < 1e-7);
+    assert!(rel(value(&out, "stopped_at"), x_b + 8.0) < 1e-8);
+    assert!(rel(value(&out, "brake_energy"), fb * 8.0) < 1e-7);
+    assert!(rel(value(&out, "peak_brake_load"), fb) < 1e-12);
+    assert_eq!(check(&out, "chain_stops").status, Status::Pass);
+    // The note states the instant of application, t_b = 0.59 s.
+    assert!(
+        out.notes.iter().any(|n| n.contains("0.59 s after release")),
+        "{:?}",
+        out.notes
+    );
+}
+
+#[test]
+fn the_speed_form_agrees_with_the_length_form() {
+    // Applying the brake at the paid-out length where the speed form applied
+    // it must give the same stopping length (the run is deterministic), here
+    // with locker pickup, drag and a freeboard above the water.
+    let common: [(&str, &str); 9] = [
+        ("case", "brake"),
+        ("mass_per_length", "50 kg/m"),
+        ("chain_grade", "U2"),
+        ("chain_size", "50 mm"),
+        ("end_mass", "3000 kg"),
+        ("submerged", "true"),
+        ("freeboard", "5 m"),
+        ("depth", "70 m"),
+        ("drag_factor", "40 kg/m"),
+    ];
+    let with = |extra: &[(&str, &str)]| {
+        let mut given = common.to_vec();
+        given.extend_from_slice(extra);
+        run(&given).unwrap()
+    };
+    let by_speed = with(&[
+        ("brake_force", "90 kN"),
+        ("brake_applied_at_speed", "7 m/s"),
+    ]);
+    all_finite(&by_speed);
+    assert_eq!(check(&by_speed, "chain_stops").status, Status::Pass);
+    assert!(rel(value(&by_speed, "speed_at_brake"), 7.0) < 1e-9);
+    let x_b = value(&by_speed, "stopped_at") - value(&by_speed, "stopping_length");
+    assert!(x_b > 0.0);
+    let at = format!("{x_b} m");
+    let by_length = with(&[("brake_force", "90 kN"), ("brake_applied_at", &at)]);
+    assert_eq!(check(&by_length, "chain_stops").status, Status::Pass);
+    assert!(rel(value(&by_length, "speed_at_brake"), 7.0) < 1e-8);
+    assert!(
+        rel(
+            value(&by_length, "stopping_length"),
+            value(&by_speed, "stopping_length")
+        ) < 1e-7
+    );
+    assert!(
+        rel(
+            value(&by_length, "brake_energy"),
+            value(&by_speed, "brake_energy")
+        ) < 1e-7
+    );
+}
+
+#[test]
+fn a_brake_speed_never_reached_is_a_failed_check() {
+    // Heavy drag holds the free run below sqrt((M + λx) g_n / c) =
+    // sqrt(3000 × 9.80665 / 2000) = 3.84 m/s over the 20 m run (DERIVED), so
+    // the 6 m/s set speed is never reached.
+    let out = run(&[
+        ("case", "brake"),
+        ("mass_per_length", "50 kg/m"),
+        ("breaking_load", "900 kN"),
+        ("end_mass", "2000 kg"),
+        ("locker_pickup", "false"),
+        ("drag_factor", "2000 kg/m"),
+        ("depth", "20 m"),
+        ("brake_force", "100 kN"),
+        ("brake_applied_at_speed", "6 m/s"),
+    ])
+    .unwrap();
+    all_finite(&out);
+    let c = check(&out, "chain_stops");
+    assert_eq!(c.status, Status::Fail);
+    assert!(c.explanation.contains("never reaches"), "{}", c.explanation);
+    assert!(!out.outputs.contains_key("speed_at_brake"));
+    assert!(value(&out, "end_speed") < (3000.0 * GN / 2000.0f64).sqrt());
+}
+
+#[test]
+fn the_brake_point_is_given_once_as_a_length_or_a_speed() {
+    let decl = ChainPayout.declaration();
+    let base = [
+        ("case", "brake"),
+        ("mass_per_length", "10 kg/m"),
+        ("end_mass", "500 kg"),
+        ("brake_force", "20 kN"),
+        ("depth", "30 m"),
+        ("breaking_load", "300 kN"),
+    ];
+    /// Extra inputs, the input the error names and a word of its message.
+    type Case<'a> = (&'a [(&'a str, &'a str)], &'a str, &'a str);
+    let both: &[(&str, &str)] = &[
+        ("brake_applied_at", "5 m"),
+        ("brake_applied_at_speed", "3 m/s"),
+    ];
+    let cases: [Case<'_>; 2] = [
+        (&[], "brake_applied_at", "neither"),
+        (both, "brake_applied_at_speed", "both"),
+    ];
+    for (extra, name, word) in cases {
+        let mut given = base.to_vec();
+        given.extend_from_slice(extra);
+        let inputs = Inputs::from_text(&decl, &given).unwrap();
+        let e = ChainPayout.check_inputs(&inputs);
+        assert_eq!(e.len(), 1, "{e:?}");
+        match &e[0] {
+            CalcError::Input {
+                input,
+                span,
+                message,
+                expected,
+            } => {
+                assert_eq!(input, name);
+                assert!(span.is_some());
+                assert_eq!(span, &inputs.span_of("case"));
+                assert!(message.contains(word), "{message}");
+                assert!(expected.contains("brake_applied_at: 25 m"), "{expected}");
+                assert!(
+                    expected.contains("brake_applied_at_speed: 4 m/s"),
+                    "{expected}"
+                );
+            }
+            other => panic!("{other:?}"),
+        }
+        // compute refuses the same inputs with that error.
+        assert!(matches!(
+            ChainPayout.compute(&inputs),
+            Err(CalcError::Input { input, .. }) if input == name
+        ));
+    }
+}
