@@ -745,11 +745,24 @@ fn a_template_cannot_read_outside_the_package() {
 fn a_template_cannot_reach_the_network_or_files_beside_the_project() {
     // A Typst package would be downloaded by the Typst command line; the
     // package world has no packages and no network.
-    let dir = built_then_overridden("cover.typ.hbs", b"#import \"@preview/cetz:0.3.4\": canvas\n= Cover\n");
-    assert_template_refused(dir.path(), &["templates/cover.typ.hbs:1:", "does not typeset", "packages are not available"]);
+    let dir = built_then_overridden(
+        "cover.typ.hbs",
+        b"#import \"@preview/cetz:0.3.4\": canvas\n= Cover\n",
+    );
+    assert_template_refused(
+        dir.path(),
+        &[
+            "templates/cover.typ.hbs:1:",
+            "does not typeset",
+            "packages are not available",
+        ],
+    );
     // A project file beside the package folder is outside the sandbox.
     let dir = built_then_overridden("cover.typ.hbs", b"= Cover\n#read(\"../project.yaml\")\n");
-    let out = assert_template_refused(dir.path(), &["templates/cover.typ.hbs:2:", "does not typeset"]);
+    let out = assert_template_refused(
+        dir.path(),
+        &["templates/cover.typ.hbs:2:", "does not typeset"],
+    );
     assert!(!out.contains("revisions:"), "{out}");
 }
 

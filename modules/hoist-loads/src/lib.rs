@@ -2,13 +2,16 @@
 //! designed to by a named basis (EN 13001-2 / ISO 8686-1, FEM 1.001, CMAA
 //! Specification 70, marine lifting guidelines), the design hoist load, the
 //! rope's safety factor, and the rope-and-mass model behind the factors:
-//! rope stiffness, a simulated lift-off of a grounded load, and the closed
-//! forms for lift-off at full speed and for a load dropping onto a slack rope.
+//! the stiffness of wire rope or grade 8 lifting chain, a simulated lift-off
+//! of a grounded load (hook drive prescribed, or the hook as a second mass on
+//! a drive spring), and the closed forms for lift-off at full speed and for a
+//! load dropping onto a slack rope.
 //!
-//! The crate owns the physics ([`factors`], [`rope`], [`sim`]) and the
+//! The crate owns the physics ([`factors`], [`rope`], [`chain`], [`sim`]) and the
 //! mapping of an item's inputs onto it ([`HoistLoads`]). It depends on the
 //! plug-in contract `packwright-api` only.
 
+pub mod chain;
 pub mod factors;
 pub mod rope;
 pub mod sim;
@@ -205,8 +208,29 @@ fn validate(inputs: &Inputs) -> Vec<CalcError> {
         }
     }
 
+    let chain = is_chain(inputs);
+    if chain {
+        validate_chain(inputs, &mut errors);
+    } else {
+        for name in ["chain", "chain_size", "chain_grade"] {
+            if present(inputs, name) {
+                errors.push(CalcError::input(
+                    name,
+                    inputs.span_of(name),
+                    &format!("`{name}` describes a chain, but the hoisting medium is a wire rope (`medium: rope`, the default)"),
+                    "`medium: chain` under `inputs:` to hoist on chain, or leave the chain data out",
+                ));
+            }
+        }
+    }
+    validate_two_mass(inputs, chain, &mut errors);
+
     // The rope model: rope data switches it on, and then all of it is needed.
-    let trigger = ROPE_MODEL[1..].iter().find(|n| present(inputs, n));
+    let trigger = if chain {
+        None
+    } else {
+        ROPE_MODEL[1..].iter().find(|n| present(inputs, n))
+    };
     if let Some(first) = trigger {
         let span = inputs.span_of(first);
         let examples = [
@@ -234,7 +258,7 @@ fn validate(inputs: &Inputs) -> Vec<CalcError> {
                 "`hoisting_speed: 8 m/min` under `inputs:`",
             ));
         }
-    } else if present(inputs, "slack_height") {
+    } else if present(inputs, "slack_height") && !chain {
         errors.push(CalcError::input(
             "slack_height",
             inputs.span_of("slack_height"),
@@ -251,6 +275,96 @@ fn validate(inputs: &Inputs) -> Vec<CalcError> {
         ));
     }
     errors
+}
+
+/// True when the item hoists on chain (`medium: chain`).
+fn is_chain(inputs: &Inputs) -> bool {
+    matches!(inputs.opt_choice("medium"), Ok(Some("chain")))
+}
+
+/// True when the item gives what the rope-and-mass model needs to start.
+fn model_on(inputs: &Inputs) -> bool {
+    is_chain(inputs) || ROPE_MODEL[1..].iter().any(|n| present(inputs, n))
+}
+
+/// The chain as the hoisting medium: its data is needed and the wire-rope
+/// data does not apply.
+fn validate_chain(inputs: &Inputs, errors: &mut Vec<CalcError>) {
+    let span = inputs.span_of("medium");
+    let needs = [
+        (
+            "falls",
+            "the number of chain falls (legs) carrying the hook",
+            "falls: 1",
+        ),
+        (
+            "chain_size",
+            "the chain's nominal diameter",
+            "chain_size: 16 mm",
+        ),
+        ("chain_grade", "the chain grade", "chain_grade: G8"),
+        (
+            "rope_length",
+            "the free length of one chain fall at lift-off",
+            "rope_length: 4 m",
+        ),
+        (
+            "hoisting_speed",
+            "the speed at which the model lifts the load off",
+            "hoisting_speed: 8 m/min",
+        ),
+    ];
+    for (name, why, example) in needs {
+        if !present(inputs, name) {
+            errors.push(CalcError::input(
+                name,
+                span.clone(),
+                &format!("`medium: chain` needs `{name}` ({why}) but it was not given"),
+                &format!("`{example}` under `inputs:`"),
+            ));
+        }
+    }
+    for name in ["rope_diameter", "fill_factor", "rope_modulus"] {
+        if present(inputs, name) {
+            errors.push(CalcError::input(
+                name,
+                inputs.span_of(name),
+                &format!("`{name}` describes a wire rope, but the hoisting medium is chain; the chain's area and modulus follow from `chain_size`"),
+                "`chain_size: 16 mm` and `chain_grade: G8` without the wire-rope data, or `medium: rope`",
+            ));
+        }
+    }
+}
+
+/// The second mass: a drive spring needs a hook mass to act on, and both
+/// belong to the rope-and-mass model.
+fn validate_two_mass(inputs: &Inputs, chain: bool, errors: &mut Vec<CalcError>) {
+    let hook_mass = inputs
+        .opt_quantity::<Mass>("hook_mass")
+        .ok()
+        .flatten()
+        .map_or(0.0, |m| m.to_si());
+    let model = chain || ROPE_MODEL[1..].iter().any(|n| present(inputs, n));
+    if present(inputs, "drive_stiffness") && hook_mass <= 0.0 {
+        errors.push(CalcError::input(
+            "drive_stiffness",
+            inputs.span_of("drive_stiffness"),
+            "`drive_stiffness` sets the spring between the drive and the hook, which needs the hook's mass, but `hook_mass` is zero or not given",
+            "`hook_mass: 250 kg` with `drive_stiffness: 50 MN/m` under `inputs:`",
+        ));
+    }
+    if !model {
+        for name in ["drive_stiffness", "hook_mass"] {
+            if present(inputs, name) && (name == "drive_stiffness" || hook_mass > 0.0) {
+                errors.push(CalcError::input(
+                    name,
+                    inputs.span_of(name),
+                    &format!("`{name}` belongs to the rope-and-mass model, but no rope or chain data was given"),
+                    "`rope_diameter`, `fill_factor`, `rope_modulus`, `rope_length` and `falls`, or `medium: chain` with `chain_size`, `chain_grade`, `rope_length` and `falls`",
+                ));
+            }
+        }
+    }
 }
 
 fn read_basis(inputs: &Inputs) -> Result<Basis, CalcError> {
@@ -426,7 +540,21 @@ impl Module for HoistLoads {
         if let Some(n) = falls {
             let per_fall: Force = weight / n as f64;
             out.set("rope_force_per_fall", per_fall);
-            if let Some(mbf) = inputs.opt_quantity::<Force>("rope_breaking_force")? {
+            let given: Option<Force> = inputs.opt_quantity("rope_breaking_force")?;
+            let breaking = match given {
+                Some(f) => Some(f),
+                None if is_chain(inputs) => {
+                    let d: Length = inputs.quantity("chain_size")?;
+                    out.note(format!(
+                        "Chain breaking force from EN 818-2 grade 8: BF = 2 (π/4) d² × 800 N/mm² = {:.1} kN for d = {:.0} mm (give `rope_breaking_force` to use the chain's certificate instead).",
+                        chain::g8_breaking_force(d).to_si() / 1000.0,
+                        d.to_si() * 1000.0
+                    ));
+                    Some(chain::g8_breaking_force(d))
+                }
+                None => None,
+            };
+            if let Some(mbf) = breaking {
                 let factor = (mbf / per_fall).value;
                 out.set_number("rope_safety_factor", factor);
                 let explicit = inputs.criterion_number("required_rope_factor")?;
@@ -455,7 +583,7 @@ impl Module for HoistLoads {
             }
         }
 
-        if present(inputs, "rope_diameter") {
+        if model_on(inputs) {
             rope_model(inputs, &basis, m, g, phi, &mut out)?;
         }
         Ok(out)
@@ -472,16 +600,29 @@ fn rope_model(
     out: &mut Outcome,
 ) -> Result<(), CalcError> {
     let n = inputs.count("falls")?;
-    let d: Length = inputs.quantity("rope_diameter")?;
-    let f = inputs.number("fill_factor")?;
-    let e: Pressure = inputs.quantity("rope_modulus")?;
     let l: Length = inputs.quantity("rope_length")?;
+    let k = if is_chain(inputs) {
+        let d: Length = inputs.quantity("chain_size")?;
+        let grade = inputs.choice("chain_grade")?;
+        let e = chain::studless_r3_modulus(d);
+        out.note(format!(
+            "Chain as the spring: {n} fall(s) of {:.0} mm grade {grade} chain, k = n E A / L with A = 2 π d²/4 = {:.4e} m² (both legs of a link) and E = (5.40 − 0.0040 d) × 10¹⁰ Pa = {:.3e} Pa, the DNV studless R3 mooring-chain modulus taken as an approximation for short-link lifting chain (from memory / approximation, verify with the chain maker).",
+            d.to_si() * 1000.0,
+            chain::link_area(d).to_si(),
+            e.to_si()
+        ));
+        chain::chain_stiffness(n, d, l)
+    } else {
+        let d: Length = inputs.quantity("rope_diameter")?;
+        let f = inputs.number("fill_factor")?;
+        let e: Pressure = inputs.quantity("rope_modulus")?;
+        rope::reeving_stiffness(n, e, rope::metallic_area(d, f), l)
+    };
     let tr: Time = inputs.quantity("drive_ramp_time")?;
     let zeta = inputs.number("damping_ratio")?;
     let slack: Option<Length> = inputs.opt_quantity("slack_height")?;
     let weight: Force = m * g;
 
-    let k = rope::reeving_stiffness(n, e, rope::metallic_area(d, f), l);
     out.set("stiffness", k);
     out.set("static_stretch", rope::static_stretch(m, g, k));
     let (v, why) = liftoff_speed(basis, inputs)?;
@@ -489,7 +630,7 @@ fn rope_model(
     let bound = (rope::liftoff_bound(m, g, v, k) / weight).value;
     out.set_number("liftoff_bound_factor", bound);
 
-    let history = sim::simulate_liftoff(&sim::LiftOff {
+    let base = sim::LiftOff {
         mass: m,
         stiffness: k,
         damping_ratio: zeta,
@@ -497,8 +638,32 @@ fn rope_model(
         hook_speed: v,
         ramp_time: tr,
         slack: slack.unwrap_or(si(0.0)),
-    })
-    .map_err(|err| {
+    };
+    let hook_mass: Mass = inputs.quantity("hook_mass")?;
+    let drive: Option<Stiffness> = inputs.opt_quantity("drive_stiffness")?;
+    let result = match drive {
+        Some(kd) if hook_mass.to_si() > 0.0 => {
+            out.note(format!(
+                "Two-degree model: the motor's prescribed motion drives the hook ({:.0} kg) through the drive spring k_d = {:.4e} N/m, and the hook lifts the load through the {} spring k = {:.4e} N/m; both masses are integrated, the same damping ratio on both springs.",
+                hook_mass.to_si(),
+                kd.to_si(),
+                if is_chain(inputs) { "chain" } else { "rope" },
+                k.to_si()
+            ));
+            sim::simulate_two_mass_liftoff(&sim::TwoMassLiftOff {
+                base,
+                hook_mass,
+                drive_stiffness: kd,
+            })
+        }
+        _ => {
+            if hook_mass.to_si() > 0.0 {
+                out.note("A hook mass is given without `drive_stiffness`: the drive is rigid, so the hook follows the prescribed motion and its mass does not change the rope force; the single-mass model applies.");
+            }
+            sim::simulate_liftoff(&base)
+        }
+    };
+    let history = result.map_err(|err| {
         CalcError::numerical(
             "model_dynamic_factor",
             &err.to_string(),
@@ -508,6 +673,8 @@ fn rope_model(
                 "rope_length",
                 "rope_modulus",
                 "hoisted_mass",
+                "hook_mass",
+                "drive_stiffness",
             ],
         )
     })?;
@@ -616,15 +783,21 @@ fn declaration() -> ModuleDeclaration {
             InputSpec::quantity("creep_speed", Dimension::Velocity, "creep (slow) speed used to take up the load, v_h,CS").above(0.0).optional(),
             choice("crane_type", &CRANE_TYPES, "crane type: overhead, gantry or jib sets FEM 1.001's ξ; bucket or magnet sets CMAA 70's factor to 1.5"),
             choice("lift_location", &["onshore", "inshore", "offshore"], "where a marine lift takes place (offshore)"),
-            InputSpec::count("falls", "number of rope falls n carrying the hook block").at_least(1.0).optional(),
+            InputSpec::choice("medium", &["rope", "chain"], "hoisting medium acting as the spring: rope (wire rope, from rope_diameter, fill_factor, rope_modulus) or chain (short-link lifting chain, from chain_size and chain_grade)").default("rope"),
+            InputSpec::count("falls", "number of rope (or chain) falls n carrying the hook block").at_least(1.0).optional(),
             InputSpec::quantity("rope_diameter", Dimension::Length, "nominal rope diameter d").above(0.0).optional(),
             InputSpec::number("fill_factor", "rope fill factor f: metallic area over the area of the circumscribed circle (6x36 IWRC about 0.58)").above(0.0).at_most(1.0).optional(),
             InputSpec::quantity("rope_modulus", Dimension::Pressure, "rope modulus E on the metallic area, after bedding in (stranded IWRC about 100 kN/mm2)").above(0.0).optional(),
-            InputSpec::quantity("rope_length", Dimension::Length, "free length L of one fall, head sheaves to hook block, at the lift-off position").above(0.0).optional(),
-            InputSpec::quantity("rope_breaking_force", Dimension::Force, "minimum breaking force of the rope F_min, from its certificate").above(0.0).optional(),
+            InputSpec::material("chain", "chain", "a named chain in materials/ (kind chain, the chain data the chain-payout module reads) whose chain_size and chain_grade fill those inputs; give it with medium chain").optional(),
+            InputSpec::quantity("chain_size", Dimension::Length, "nominal (wire) diameter d of the lifting chain (medium chain)").above(0.0).optional(),
+            choice("chain_grade", &["G8"], "chain grade (medium chain): G8 is EN 818-2 grade 8 short-link lifting chain"),
+            InputSpec::quantity("rope_length", Dimension::Length, "free length L of one fall of rope or chain, head sheaves (or chain wheel) to hook block, at the lift-off position").above(0.0).optional(),
+            InputSpec::quantity("rope_breaking_force", Dimension::Force, "minimum breaking force of the rope or chain F_min, from its certificate; for G8 chain it defaults to the EN 818-2 value 2 (π/4) d² × 800 N/mm²").above(0.0).optional(),
             choice("mechanism_group", &["M1", "M2", "M3", "M4", "M5", "M6", "M7", "M8"], "mechanism group of the hoist (ISO 4301-1), for the ISO 4308-1 rope coefficient Z_p"),
             InputSpec::quantity("drive_ramp_time", Dimension::Time, "time t_r for the hoist drive to reach the lift-off speed from rest; 0 s (instant) is the conservative default").at_least(0.0).default("0 s"),
             InputSpec::number("damping_ratio", "damping ratio ζ of the load bouncing on the rope, as a fraction of critical; 0 (none) is the conservative default").at_least(0.0).below(1.0).default("0"),
+            InputSpec::quantity("hook_mass", Dimension::Mass, "mass m_h of the hook block and what moves with the drive side above the rope spring (two-degree model); 0 kg keeps the hook on the prescribed drive motion").at_least(0.0).default("0 kg"),
+            InputSpec::quantity("drive_stiffness", Dimension::ForcePerLength, "stiffness k_d of the drive and structure between the motor's prescribed motion and the hook; with hook_mass above zero the hook becomes a second mass between k_d and the rope").above(0.0).optional(),
             InputSpec::quantity("slack_height", Dimension::Length, "slack h in the rope before it tightens (or height a load may drop before the rope catches it)").at_least(0.0).optional(),
             InputSpec::quantity("released_mass", Dimension::Mass, "part Δm of the hoisted mass that may be released suddenly (grab or magnet discharge, load breaking free)").above(0.0).optional(),
             choice("release_rate", &["slow", "rapid"], "how the part is released: slow (grab, magnet, β3 = 0.5) or rapid (β3 = 1.0)"),
@@ -637,7 +810,7 @@ fn declaration() -> ModuleDeclaration {
             OutputSpec::number("release_factor", "EN 13001-2 φ3 on the load left after a sudden release").optional(),
             OutputSpec::new("rope_force_per_fall", Dimension::Force, "kN", "lbf", "static rope force per fall S = m g / n").optional(),
             OutputSpec::number("rope_safety_factor", "rope safety factor F_min / S").optional(),
-            OutputSpec::new("stiffness", Dimension::ForcePerLength, "kN/mm", "lbf/in", "stiffness of the reeving at the hook k = n E A_m / L").optional(),
+            OutputSpec::new("stiffness", Dimension::ForcePerLength, "kN/mm", "lbf/in", "stiffness of the reeving at the hook k = n E A_m / L (rope) or n E A / L (chain)").optional(),
             OutputSpec::new("static_stretch", Dimension::Length, "mm", "in", "static stretch of the reeving under the weight m g / k").optional(),
             OutputSpec::new("liftoff_speed", Dimension::Velocity, "m/min", "fpm", "hook speed at which the model lifts the load off").optional(),
             OutputSpec::new("liftoff_time", Dimension::Time, "s", "s", "time from the drive start to lift-off in the model").optional(),
@@ -666,15 +839,18 @@ fn declaration() -> ModuleDeclaration {
             MethodStep::equation("Marine lifting (GL Noble Denton 0027/ND Table 5-1): by static hook load SHL in tonnes and location; up to 100 t offshore and inshore by formula, fixed values above.", "\"DAF\"_\"offshore\" = 1 + 0.25 sqrt(100 / \"SHL\")"),
             MethodStep::equation("Design hoist load from the factor of the chosen basis; the rope force per fall and the safety factor use the static load, as ISO 4308-1's Z_p does.", "F_d = phi m g, quad S = frac(m g, n), quad Z = frac(F_\"min\", S) >= Z_p"),
             MethodStep::equation("The n falls act as parallel springs of metallic area A_m.", "k = frac(n E A_m, L), quad A_m = f frac(pi d^2, 4)"),
+            MethodStep::equation("With `medium: chain` the n chain falls are the springs: both legs of a link carry the load, and E is the DNV studless R3 mooring-chain modulus (d in mm), taken as an approximation for short-link lifting chain (from memory / approximation, verify with the chain maker). The grade 8 breaking force follows EN 818-2 (800 N/mm² on both legs) unless the certificate's value is given.", "k = frac(n E A, L), quad A = 2 frac(pi d^2, 4), quad E = (5.40 - 0.0040 d) dot 10^10 \"Pa\", quad F_\"min\" = 2 frac(pi d^2, 4) dot 800 \"N/mm\"^2"),
             MethodStep::equation("Rope-and-mass model: the hook drive follows a prescribed motion, accelerating uniformly to the lift-off speed v over t_r; the rope pulls only when stretched; the load rests on the ground until the rope force reaches m g.", "m dot.double(y) = F - m g, quad F = max(0, k e + c dot(e)), quad e = x_h (t) - y - s, quad c = 2 zeta sqrt(k m)"),
+            MethodStep::equation("Two-degree model (with `hook_mass` m_h above zero and `drive_stiffness` k_d): the motor's motion x_d (t) is prescribed as above and drives the hook mass through the drive spring; the hook lifts the load through the rope. The hook starts at rest hanging on the drive spring; the damping ratio applies to both springs.", "m_h dot.double(u) = k_d (x_d - u) + c_d (dot(x)_d - dot(u)) - F, quad m dot.double(y) = F - m g, quad e = u - y - s, quad c_d = 2 zeta sqrt(k_d m_h)"),
             MethodStep::text("The airborne motion is integrated by an adaptive Dormand-Prince 5(4) Runge-Kutta scheme with relative tolerance 1e-10; rope engagement, slack, landing and force peaks are located by bisection on the step size."),
             MethodStep::equation("Closed form for lift-off at full speed (instant ramp, no damping), and for a load falling a slack height h onto the rope.", "F_\"max\" = m g + v sqrt(k m), quad F_\"max\" = m g (1 + sqrt(1 + frac(2 k h, m g)))"),
         ],
         assumptions: vec![
             "The rope is a massless linear spring with viscous damping that cannot push; its stiffness uses the metallic area and the bedded-in modulus and ignores constructional stretch.".into(),
-            "Only the falls are elastic: the crane structure, sheaves, lead line to the drum and the drive are rigid, so the model's stiffness and factor are upper values for that reason.".into(),
-            "The hook drive's motion is prescribed (uniform acceleration to the lift-off speed, then constant speed), unaffected by the load.".into(),
-            "The load is a rigid mass lifted vertically from rigid ground, with no swing, no suction or adhesion to the ground, and no hook block mass apart from the hoisted mass.".into(),
+            "Only the falls are elastic unless `drive_stiffness` is given: the crane structure, sheaves, lead line to the drum and the drive are otherwise rigid, so the model's stiffness and factor are upper values for that reason.".into(),
+            "The hook drive's motion is prescribed (uniform acceleration to the lift-off speed, then constant speed), unaffected by the load. In the two-degree model this is the motor's motion, the drive and structure are one linear spring k_d, and the hook is one rigid mass m_h; the motor does not slow under load.".into(),
+            "The load is a rigid mass lifted vertically from rigid ground, with no swing and no suction or adhesion to the ground. The hook mass of the two-degree model is a separate mass on the drive side of the rope spring; the static loads, the design load and the rope force per fall use the hoisted mass alone.".into(),
+            "Chain as the spring: a linear spring k = n E A / L with A on both legs of a link and E the DNV studless R3 mooring-chain modulus, an approximation for short-link grade 8 chain (from memory / approximation, verify with the chain maker); link seating and wear are ignored.".into(),
             "The static hook load for the marine DAF is the hoisted mass as given, with no weight contingency added.".into(),
             "Gravity is standard gravity, 9.80665 m/s2.".into(),
         ],
@@ -685,6 +861,7 @@ fn declaration() -> ModuleDeclaration {
             "A sudden release (grab or magnet discharge, a sling or hook failing, a load breaking free) makes the rope and crane spring upward; with a negative φ3 the hook block and boom can be thrown, and ropes can jump their sheaves.".into(),
             "The rope force per fall leaves out sheave friction, the lead line to the drum, rope weight and fleet angle; the drum-line tension is higher. Take the breaking force from the rope's certificate and discard the rope by ISO 4309 criteria.".into(),
             "Several factors here come from memory of the standards (see the references): verify them against the edition in force for the project before the calculation is released.".into(),
+            "A chain hoist snatches harder than a rope hoist of the same capacity: the chain is stiffer and has no constructional stretch. Never shock-load lifting chain; a kinked, twisted or knotted chain, or one with stretched or worn links, fails far below its breaking force.".into(),
             "Keep people out from under and beside a suspended load: a rope that breaks under a snatch recoils with the energy stored in it.".into(),
             "The marine DAF covers a single crane lifting in air; splash-zone, subsea and multi-crane lifts and vessel motions need their own analysis.".into(),
         ],
@@ -699,6 +876,8 @@ fn declaration() -> ModuleDeclaration {
             "ISO 4308-1:2003, Cranes and lifting appliances, Selection of wire ropes, Part 1: General: coefficient Z_p by mechanism group (values from memory).".into(),
             "ISO 4309, Cranes, Wire ropes, Care and maintenance, inspection and discard.".into(),
             "EN 1993-1-11:2006, Design of structures with tension components: rope moduli (typical values, from memory).".into(),
+            "EN 818-2, Short link chain for lifting purposes, Safety, Part 2: Medium tolerance chain for chain slings, Grade 8: breaking force on 800 N/mm² mean stress on both legs (Annex A basis, consistent with the working load limit table).".into(),
+            "DNV-OS-E301, Position mooring: axial stiffness of studless R3 chain E = (5.40 − 0.0040 d) · 10¹⁰ Pa on A = 2 π d²/4 (as quoted in a secondary source); used here for grade 8 lifting chain as an approximation, to be verified with the chain maker.".into(),
         ],
     }
 }

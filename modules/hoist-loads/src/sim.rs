@@ -2,7 +2,9 @@
 //! rope (spring k, viscous damper c = 2 ζ √(k m), no compression) whose upper
 //! end, the hook drive, follows a prescribed motion. The load may rest on
 //! rigid ground, lift off when the rope force reaches its weight, fly free
-//! when the rope goes slack, and land again.
+//! when the rope goes slack, and land again. A two-degree variant puts the
+//! hook block, as a second mass, between a drive spring (driven by the
+//! prescribed motor motion) and the rope; both masses are integrated.
 //!
 //! The airborne motion is integrated with an adaptive Dormand–Prince 5(4)
 //! Runge–Kutta scheme written here (no dependency). Every non-smooth point
@@ -291,77 +293,8 @@ impl Model {
     /// One Dormand–Prince 5(4) step; returns the fifth-order state and the
     /// scaled error norm (≤ 1 means the step meets the tolerance).
     fn dp_step(&self, t: f64, y: &State, h: f64) -> (State, f64) {
-        const C: [f64; 7] = [0.0, 0.2, 0.3, 0.8, 8.0 / 9.0, 1.0, 1.0];
-        const A: [[f64; 6]; 7] = [
-            [0.0; 6],
-            [0.2, 0.0, 0.0, 0.0, 0.0, 0.0],
-            [3.0 / 40.0, 9.0 / 40.0, 0.0, 0.0, 0.0, 0.0],
-            [44.0 / 45.0, -56.0 / 15.0, 32.0 / 9.0, 0.0, 0.0, 0.0],
-            [
-                19372.0 / 6561.0,
-                -25360.0 / 2187.0,
-                64448.0 / 6561.0,
-                -212.0 / 729.0,
-                0.0,
-                0.0,
-            ],
-            [
-                9017.0 / 3168.0,
-                -355.0 / 33.0,
-                46732.0 / 5247.0,
-                49.0 / 176.0,
-                -5103.0 / 18656.0,
-                0.0,
-            ],
-            [
-                35.0 / 384.0,
-                0.0,
-                500.0 / 1113.0,
-                125.0 / 192.0,
-                -2187.0 / 6784.0,
-                11.0 / 84.0,
-            ],
-        ];
-        const B5: [f64; 7] = [
-            35.0 / 384.0,
-            0.0,
-            500.0 / 1113.0,
-            125.0 / 192.0,
-            -2187.0 / 6784.0,
-            11.0 / 84.0,
-            0.0,
-        ];
-        const B4: [f64; 7] = [
-            5179.0 / 57600.0,
-            0.0,
-            7571.0 / 16695.0,
-            393.0 / 640.0,
-            -92097.0 / 339200.0,
-            187.0 / 2100.0,
-            1.0 / 40.0,
-        ];
-        let mut k = [[0.0; 2]; 7];
-        for i in 0..7 {
-            let mut yi = *y;
-            for (j, kj) in k.iter().enumerate().take(i) {
-                yi[0] += h * A[i][j] * kj[0];
-                yi[1] += h * A[i][j] * kj[1];
-            }
-            k[i] = self.rhs(t + C[i] * h, &yi);
-        }
-        let mut y5 = *y;
-        let mut err = [0.0; 2];
-        for i in 0..7 {
-            for d in 0..2 {
-                y5[d] += h * B5[i] * k[i][d];
-                err[d] += h * (B5[i] - B4[i]) * k[i][d];
-            }
-        }
         let scale = [self.len, self.len * self.omega()];
-        let norm = (0..2)
-            .map(|d| err[d].abs() / (RTOL * (scale[d] + y5[d].abs().max(y[d].abs()))))
-            .fold(0.0, f64::max);
-        (y5, norm)
+        dp45(&|tt, yy| self.rhs(tt, yy), t, y, h, &scale)
     }
 
     /// Bisects for the smallest step τ in (0, h] at which `event(t + τ,
@@ -534,6 +467,380 @@ impl Model {
     }
 }
 
+/// Lift-off in the two-degree model: the motor's prescribed motion (the
+/// ramp of `base`) drives the hook of mass m_h through a drive spring k_d,
+/// and the hook lifts the load through the rope spring of `base`.
+#[derive(Debug, Clone, Copy)]
+pub struct TwoMassLiftOff {
+    /// The load, rope, damping, gravity, drive ramp and slack; the ramp is
+    /// now the motor's motion, not the hook's.
+    pub base: LiftOff,
+    /// Hook mass m_h between the drive spring and the rope.
+    pub hook_mass: Mass,
+    /// Drive spring k_d between the motor and the hook.
+    pub drive_stiffness: Stiffness,
+}
+
+/// Simulates the two-degree lift-off (hook and load both integrated) until
+/// five periods of the slower mode and five of the faster after both the
+/// quasi-static lift-off and the end of the ramp. The hook starts at rest,
+/// hanging in equilibrium on the drive spring; the drive spring is damped
+/// with the same damping ratio as the rope, on the hook mass.
+pub fn simulate_two_mass_liftoff(p: &TwoMassLiftOff) -> Result<History, SimError> {
+    let b = &p.base;
+    let model = TwoMass {
+        m: b.mass.to_si(),
+        k: b.stiffness.to_si(),
+        c: 2.0 * b.damping_ratio * (b.stiffness.to_si() * b.mass.to_si()).sqrt(),
+        mh: p.hook_mass.to_si(),
+        kd: p.drive_stiffness.to_si(),
+        cd: 2.0 * b.damping_ratio * (p.drive_stiffness.to_si() * p.hook_mass.to_si()).sqrt(),
+        g: b.gravity.to_si(),
+        v: b.hook_speed.to_si(),
+        tr: b.ramp_time.to_si(),
+        s: b.slack.to_si(),
+    };
+    if model.v <= 0.0 {
+        return Err(SimError::NoLiftOff);
+    }
+    let (w_lo, w_hi) = model.omegas();
+    let two_pi = 2.0 * std::f64::consts::PI;
+    // Motor travel to carry the weight quasi-statically: slack plus the
+    // stretch of both springs under m g.
+    let travel = model.s + model.m * model.g * (1.0 / model.k + 1.0 / model.kd);
+    let t_qs = if model.tr > 0.0 && travel <= 0.5 * model.v * model.tr {
+        (2.0 * travel * model.tr / model.v).sqrt()
+    } else {
+        travel / model.v + 0.5 * model.tr
+    };
+    let t_end = t_qs.max(model.tr) + 5.0 * two_pi / w_lo + 5.0 * two_pi / w_hi;
+    model.run(t_end, w_lo, w_hi)
+}
+
+/// The two-degree model in SI numbers. State [u, u', y, y']: hook and load
+/// displacements up from their start; rope stretch e = u − y − s.
+struct TwoMass {
+    m: f64,
+    k: f64,
+    c: f64,
+    mh: f64,
+    kd: f64,
+    cd: f64,
+    g: f64,
+    v: f64,
+    tr: f64,
+    s: f64,
+}
+
+type State4 = [f64; 4];
+
+impl TwoMass {
+    /// Undamped natural frequencies of the airborne system (fixed motor):
+    /// m_h m ω⁴ − (m (k_d + k) + m_h k) ω² + k_d k = 0.
+    fn omegas(&self) -> (f64, f64) {
+        let a = self.mh * self.m;
+        let b = self.m * (self.kd + self.k) + self.mh * self.k;
+        let c0 = self.kd * self.k;
+        let disc = (b * b - 4.0 * a * c0).max(0.0);
+        let hi2 = (b + disc.sqrt()) / (2.0 * a);
+        let lo2 = c0 / (a * hi2);
+        (lo2.sqrt(), hi2.sqrt())
+    }
+
+    /// Motor travel, speed and acceleration at time t.
+    fn motor(&self, t: f64) -> (f64, f64, f64) {
+        if t <= 0.0 {
+            (0.0, 0.0, 0.0)
+        } else if t < self.tr {
+            let a = self.v / self.tr;
+            (0.5 * a * t * t, a * t, a)
+        } else {
+            (self.v * (t - 0.5 * self.tr), self.v, 0.0)
+        }
+    }
+
+    fn stretch(&self, st: &State4) -> (f64, f64) {
+        (st[0] - st[2] - self.s, st[1] - st[3])
+    }
+
+    fn taut_measure(&self, st: &State4) -> f64 {
+        let (e, de) = self.stretch(st);
+        self.k * e + (self.c * de).min(0.0)
+    }
+
+    fn force(&self, st: &State4) -> f64 {
+        if self.taut_measure(st) > 0.0 {
+            let (e, de) = self.stretch(st);
+            (self.k * e + self.c * de).max(0.0)
+        } else {
+            0.0
+        }
+    }
+
+    /// Drive-spring force on the hook beyond the preload m_h g that holds
+    /// it at the start.
+    fn drive_force(&self, t: f64, st: &State4) -> f64 {
+        let (x, vx, _) = self.motor(t);
+        self.kd * (x - st[0]) + self.cd * (vx - st[1])
+    }
+
+    fn rhs(&self, t: f64, st: &State4, grounded: bool) -> State4 {
+        let f = self.force(st);
+        let uh = (self.drive_force(t, st) - f) / self.mh;
+        if grounded {
+            [st[1], uh, 0.0, 0.0]
+        } else {
+            [st[1], uh, st[3], f / self.m - self.g]
+        }
+    }
+
+    /// dF/dt while taut: k e' + c e''.
+    fn force_rate(&self, t: f64, st: &State4, grounded: bool) -> f64 {
+        let (_, de) = self.stretch(st);
+        let d = self.rhs(t, st, grounded);
+        self.k * de + self.c * (d[1] - d[3])
+    }
+
+    fn sample(&self, t: f64, st: &State4) -> Sample {
+        Sample {
+            time: t,
+            force: self.force(st),
+            load_height: st[2],
+            hook_travel: st[0],
+        }
+    }
+
+    fn run(&self, t_end: f64, w_lo: f64, w_hi: f64) -> Result<History, SimError> {
+        let two_pi = 2.0 * std::f64::consts::PI;
+        let dt_out = t_end / OUTPUT_POINTS as f64;
+        let h_max = (two_pi / w_hi / 40.0).min(dt_out);
+        let h_min = 1e-14 * t_end.max(1e-9);
+        if t_end / h_max > MAX_STEPS as f64 {
+            return Err(SimError::TooManySteps);
+        }
+        let len = (self.m * self.g / self.k)
+            .max(self.s)
+            .max(self.v / w_lo)
+            .max(1e-9);
+        let scale = [len, len * w_hi, len, len * w_hi];
+        let w = self.m * self.g;
+        let mut t = 0.0;
+        let mut st: State4 = [0.0; 4];
+        let mut grounded = true;
+        let mut liftoff = None;
+        let mut samples = vec![self.sample(0.0, &st)];
+        let mut next_out = dt_out;
+        let mut peak = (0.0, 0.0);
+        let mut h = h_max / 8.0;
+        let mut steps = 0usize;
+        let mut events = 0usize;
+        let out_index = |time: f64| (time / dt_out + 1e-9).floor() as usize;
+
+        while t < t_end * (1.0 - 1e-12) {
+            steps += 1;
+            if steps > MAX_STEPS {
+                return Err(SimError::TooManySteps);
+            }
+            let mut step = h.min(h_max).min(t_end - t);
+            if next_out > t {
+                step = step.min(next_out - t);
+            }
+            if t < self.tr {
+                step = step.min(self.tr - t);
+            }
+            let g0 = grounded;
+            let rhs = |tt: f64, yy: &State4| self.rhs(tt, yy, g0);
+            let (y1, err) = dp45(&rhs, t, &st, step, &scale);
+            if err > 1.0 {
+                h = step * (0.9 * err.powf(-0.2)).max(0.2);
+                if h < h_min {
+                    return Err(SimError::StepTooSmall { time: t });
+                }
+                continue;
+            }
+            let grow = if err > 0.0 {
+                (0.9 * err.powf(-0.2)).min(5.0)
+            } else {
+                5.0
+            };
+
+            // Kinks: the rope engaging or going slack, the rope force on
+            // the grounded load reaching its weight, the load landing.
+            let taut0 = self.taut_measure(&st) > 0.0;
+            let kink = |_: f64, yy: &State4| -> bool {
+                (self.taut_measure(yy) > 0.0) != taut0
+                    || (g0 && self.force(yy) >= w)
+                    || (!g0 && yy[2] < -1e-12 * len && yy[3] < 0.0)
+            };
+            let (step, y1, kinked) = if kink(t + step, &y1) {
+                let (mut lo, mut hi) = (0.0, step);
+                for _ in 0..100 {
+                    let mid = 0.5 * (lo + hi);
+                    if mid <= lo || mid >= hi {
+                        break;
+                    }
+                    if kink(t + mid, &dp45(&rhs, t, &st, mid, &scale).0) {
+                        hi = mid;
+                    } else {
+                        lo = mid;
+                    }
+                }
+                (hi, dp45(&rhs, t, &st, hi, &scale).0, true)
+            } else {
+                (step, y1, false)
+            };
+
+            // A force peak inside the (possibly cut) step.
+            if taut0
+                && self.force_rate(t, &st, g0) > 0.0
+                && self.force_rate(t + step, &y1, g0) <= 0.0
+            {
+                let (mut lo, mut hi) = (0.0, step);
+                for _ in 0..100 {
+                    let mid = 0.5 * (lo + hi);
+                    if mid <= lo || mid >= hi {
+                        break;
+                    }
+                    let ym = dp45(&rhs, t, &st, mid, &scale).0;
+                    if self.force_rate(t + mid, &ym, g0) <= 0.0 {
+                        hi = mid;
+                    } else {
+                        lo = mid;
+                    }
+                }
+                let yp = dp45(&rhs, t, &st, hi, &scale).0;
+                peak_update(&mut peak, self.force(&yp), t + hi);
+                if hi < step {
+                    samples.push(self.sample(t + hi, &yp));
+                }
+            }
+
+            t += step;
+            st = y1;
+            peak_update(&mut peak, self.force(&st), t);
+            if kinked {
+                events += 1;
+                if events > MAX_EVENTS {
+                    return Err(SimError::TooManySteps);
+                }
+                if g0 && self.force(&st) >= w {
+                    grounded = false;
+                    liftoff.get_or_insert(t);
+                } else if !g0 && st[2] < 0.0 {
+                    st[2] = 0.0;
+                    st[3] = 0.0;
+                    grounded = true;
+                }
+                samples.push(self.sample(t, &st));
+                h = h_max / 8.0;
+            } else {
+                h = step * grow;
+            }
+            if t >= next_out * (1.0 - 1e-12) {
+                if !kinked {
+                    samples.push(self.sample(t, &st));
+                }
+                next_out = (out_index(t) + 1) as f64 * dt_out;
+            }
+        }
+        if liftoff.is_none() {
+            return Err(SimError::NoLiftOff);
+        }
+        samples.sort_by(|a, b| a.time.total_cmp(&b.time));
+        samples.dedup_by(|a, b| a.time == b.time);
+        Ok(History {
+            peak_force: si(peak.0),
+            peak_time: si(peak.1),
+            liftoff_time: liftoff.map(si),
+            samples,
+        })
+    }
+}
+
+/// One Dormand–Prince 5(4) step of `rhs` from (t, y) over h; returns the
+/// fifth-order state and the error norm scaled by `scale` and the relative
+/// tolerance (≤ 1 means the step meets the tolerance). Dormand and Prince,
+/// J. Comput. Appl. Math. 6 (1980), the classical tableau.
+fn dp45<const N: usize>(
+    rhs: &dyn Fn(f64, &[f64; N]) -> [f64; N],
+    t: f64,
+    y: &[f64; N],
+    h: f64,
+    scale: &[f64; N],
+) -> ([f64; N], f64) {
+    const C: [f64; 7] = [0.0, 0.2, 0.3, 0.8, 8.0 / 9.0, 1.0, 1.0];
+    const A: [[f64; 6]; 7] = [
+        [0.0; 6],
+        [0.2, 0.0, 0.0, 0.0, 0.0, 0.0],
+        [3.0 / 40.0, 9.0 / 40.0, 0.0, 0.0, 0.0, 0.0],
+        [44.0 / 45.0, -56.0 / 15.0, 32.0 / 9.0, 0.0, 0.0, 0.0],
+        [
+            19372.0 / 6561.0,
+            -25360.0 / 2187.0,
+            64448.0 / 6561.0,
+            -212.0 / 729.0,
+            0.0,
+            0.0,
+        ],
+        [
+            9017.0 / 3168.0,
+            -355.0 / 33.0,
+            46732.0 / 5247.0,
+            49.0 / 176.0,
+            -5103.0 / 18656.0,
+            0.0,
+        ],
+        [
+            35.0 / 384.0,
+            0.0,
+            500.0 / 1113.0,
+            125.0 / 192.0,
+            -2187.0 / 6784.0,
+            11.0 / 84.0,
+        ],
+    ];
+    const B5: [f64; 7] = [
+        35.0 / 384.0,
+        0.0,
+        500.0 / 1113.0,
+        125.0 / 192.0,
+        -2187.0 / 6784.0,
+        11.0 / 84.0,
+        0.0,
+    ];
+    const B4: [f64; 7] = [
+        5179.0 / 57600.0,
+        0.0,
+        7571.0 / 16695.0,
+        393.0 / 640.0,
+        -92097.0 / 339200.0,
+        187.0 / 2100.0,
+        1.0 / 40.0,
+    ];
+    let mut k = [[0.0; N]; 7];
+    for i in 0..7 {
+        let mut yi = *y;
+        for (j, kj) in k.iter().enumerate().take(i) {
+            for d in 0..N {
+                yi[d] += h * A[i][j] * kj[d];
+            }
+        }
+        k[i] = rhs(t + C[i] * h, &yi);
+    }
+    let mut y5 = *y;
+    let mut err = [0.0; N];
+    for (i, ki) in k.iter().enumerate() {
+        for d in 0..N {
+            y5[d] += h * B5[i] * ki[d];
+            err[d] += h * (B5[i] - B4[i]) * ki[d];
+        }
+    }
+    let norm = (0..N)
+        .map(|d| err[d].abs() / (RTOL * (scale[d] + y5[d].abs().max(y[d].abs()))))
+        .fold(0.0, f64::max);
+    (y5, norm)
+}
+
 fn peak_update(peak: &mut (f64, f64), force: f64, time: f64) {
     if force > peak.0 {
         *peak = (force, time);
@@ -702,5 +1009,54 @@ mod tests {
             let damped = simulate_liftoff(&liftoff(1.0, tr, 0.05, 0.0)).unwrap();
             assert!(damped.peak_force <= undamped.peak_force, "ramp {tr}");
         }
+    }
+    // Two-degree model: a very stiff drive spring and a small hook mass
+    // converge to the prescribed-drive (single-mass) model, and undamped
+    // lift-off at full speed stays within F = m g + v √(k m)
+    // (reference.md §4.5, DERIVED) by a small tolerance in that limit.
+    fn two_mass(base: LiftOff, mh: f64, kd_over_k: f64) -> History {
+        simulate_two_mass_liftoff(&TwoMassLiftOff {
+            base,
+            hook_mass: si(mh),
+            drive_stiffness: si(kd_over_k * base.stiffness.to_si()),
+        })
+        .unwrap()
+    }
+
+    #[test]
+    fn stiff_drive_converges_to_the_single_mass_model() {
+        for (v, tr, zeta) in [(0.5, 0.0, 0.0), (0.5, 0.3, 0.0), (0.5, 0.0, 0.05)] {
+            let one = simulate_liftoff(&liftoff(v, tr, zeta, 0.0)).unwrap();
+            let coarse = two_mass(liftoff(v, tr, zeta, 0.0), 10.0, 100.0);
+            let fine = two_mass(liftoff(v, tr, zeta, 0.0), 1.0, 1000.0);
+            let f1 = one.peak_force.to_si();
+            let e_coarse = (coarse.peak_force.to_si() - f1).abs() / f1;
+            let e_fine = (fine.peak_force.to_si() - f1).abs() / f1;
+            assert!(e_fine < 2e-3, "v {v}, ramp {tr}, ζ {zeta}: {e_fine}");
+            assert!(e_fine < e_coarse, "{e_fine} vs {e_coarse}");
+            // Lift-off when the drive has also stretched its own spring.
+            let t1 = one.liftoff_time.unwrap().to_si();
+            let t2 = fine.liftoff_time.unwrap().to_si();
+            assert!((t2 - t1).abs() < 0.02 * t1 + 1e-3, "{t1} vs {t2}");
+        }
+    }
+
+    #[test]
+    fn undamped_two_mass_peak_stays_within_the_full_speed_bound() {
+        let closed = rope::liftoff_bound(check_mass(), g981(), si(0.5), check_k()).to_si();
+        for (mh, ratio) in [(1.0, 1000.0), (5.0, 300.0)] {
+            for tr in [0.0, 0.01, 0.2] {
+                let h = two_mass(liftoff(0.5, tr, 0.0, 0.0), mh, ratio);
+                assert!(
+                    h.peak_force.to_si() <= closed * (1.0 + 2e-3),
+                    "m_h {mh}, k_d/k {ratio}, ramp {tr}: {} N against {closed} N",
+                    h.peak_force.to_si()
+                );
+            }
+        }
+        // A soft drive spring lowers the peak well below the bound: the
+        // series stiffness k k_d / (k + k_d) is what the load feels.
+        let soft = two_mass(liftoff(0.5, 0.0, 0.0, 0.0), 10.0, 1.0);
+        assert!(soft.peak_force.to_si() < 0.9 * closed);
     }
 }

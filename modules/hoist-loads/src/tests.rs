@@ -403,3 +403,139 @@ fn ramp_and_creep_speed_lower_the_model_factor() {
     let bound = 1.0 + 0.05 * (k / 1000.0).sqrt() / G;
     assert!(close(output(&out, "model_dynamic_factor"), bound, 1e-6));
 }
+
+/// A 16 mm grade 8 chain hoist, one fall of 4 m.
+fn chain_item(extra: &[(&'static str, &'static str)]) -> Vec<(&'static str, &'static str)> {
+    let mut given = vec![
+        ("hoisted_mass", "2000 kg"),
+        ("basis", "cmaa70"),
+        ("hoisting_speed", "0.1 m/s"),
+        ("medium", "chain"),
+        ("falls", "1"),
+        ("chain_size", "16 mm"),
+        ("chain_grade", "G8"),
+        ("rope_length", "4 m"),
+    ];
+    given.extend_from_slice(extra);
+    given
+}
+
+// Chain as the spring (reference.md §3.5): A = 2 π d²/4 = 4.0212e-4 m² at
+// 16 mm; E = (5.40 − 0.0040 · 16) · 10¹⁰ Pa, the DNV studless R3 formula
+// (CONFIRMED as quoted) used for grade 8 as an approximation from memory;
+// EN 818-2 grade 8 BF = 2 (π/4) d² 800 N/mm² = 321.7 kN (CONSISTENT).
+#[test]
+fn chain_medium_stiffness_and_breaking_force() {
+    let out = run(&chain_item(&[("mechanism_group", "M5")])).unwrap();
+    let a = 2.0 * std::f64::consts::PI * 0.016f64.powi(2) / 4.0;
+    assert!(close(a, 4.0212e-4, 1e-4));
+    let e = (5.40 - 0.0040 * 16.0) * 1e10;
+    let k = e * a / 4.0;
+    assert!(close(output(&out, "stiffness"), k, 1e-9));
+    let bf = 321.7e3;
+    let sf = output(&out, "rope_safety_factor");
+    assert!(close(sf, bf / (2000.0 * G), 1e-4));
+    assert_eq!(
+        check(&out, "rope_safety_factor").unwrap().status,
+        Status::Pass
+    );
+    // Lift-off at full speed: the closed form on the chain's k.
+    let bound = 1.0 + 0.1 * (k * 2000.0).sqrt() / (2000.0 * G);
+    assert!(close(output(&out, "liftoff_bound_factor"), bound, 1e-9));
+    assert!(close(output(&out, "model_dynamic_factor"), bound, 1e-6));
+    assert!(out
+        .notes
+        .iter()
+        .any(|n| n.contains("verify with the chain maker")));
+    // A certificate's breaking force wins over the grade formula.
+    let out = run(&chain_item(&[("rope_breaking_force", "350 kN")])).unwrap();
+    assert!(close(
+        output(&out, "rope_safety_factor"),
+        350e3 / (2000.0 * G),
+        1e-12
+    ));
+}
+
+#[test]
+fn chain_medium_validation_points_at_spans() {
+    let errs = |given: &[(&str, &str)]| -> Vec<(String, bool)> {
+        let inputs = Inputs::from_text(&declaration(), given).unwrap();
+        HoistLoads
+            .check_inputs(&inputs)
+            .into_iter()
+            .map(|e| match e {
+                CalcError::Input {
+                    input,
+                    span,
+                    expected,
+                    ..
+                } => {
+                    assert!(expected.contains(':'), "an example: {expected}");
+                    let blame = if input == "chain_grade" || input == "falls" {
+                        "medium"
+                    } else {
+                        input.as_str()
+                    };
+                    let ok = span.is_some() && span == inputs.span_of(blame);
+                    (input, ok)
+                }
+                other => panic!("{other:?}"),
+            })
+            .collect()
+    };
+    // Chain without its grade and falls: both missing, blamed on `medium`.
+    let given: Vec<_> = chain_item(&[])
+        .into_iter()
+        .filter(|(n, _)| *n != "chain_grade" && *n != "falls")
+        .collect();
+    assert_eq!(
+        errs(&given),
+        vec![("falls".into(), true), ("chain_grade".into(), true)]
+    );
+    // Wire-rope data with a chain is an error at the rope input.
+    assert_eq!(
+        errs(&chain_item(&[("fill_factor", "0.58")])),
+        vec![("fill_factor".into(), true)]
+    );
+    // Chain data with the rope medium is an error at the chain input.
+    let mut given = rope_item(&[("chain_size", "16 mm")]);
+    given.retain(|(n, _)| *n != "medium");
+    assert_eq!(errs(&given), vec![("chain_size".into(), true)]);
+    let mut given = rope_item(&[("chain", "g8-16-hoist-chain")]);
+    given.retain(|(n, _)| *n != "medium");
+    assert_eq!(errs(&given), vec![("chain".into(), true)]);
+    // A drive spring needs a hook mass.
+    assert_eq!(
+        errs(&chain_item(&[("drive_stiffness", "50 MN/m")])),
+        vec![("drive_stiffness".into(), true)]
+    );
+}
+
+// The two-degree model through the module: a soft drive lowers the model
+// factor below the prescribed-drive one; a stiff drive and light hook
+// reproduce it (within 0.2 %); a hook mass without a drive spring changes
+// nothing.
+#[test]
+fn two_degree_model_end_to_end() {
+    let single = output(&run(&rope_item(&[])).unwrap(), "model_dynamic_factor");
+    let stiff = run(&rope_item(&[
+        ("hook_mass", "1 kg"),
+        ("drive_stiffness", "1822 MN/m"),
+    ]))
+    .unwrap();
+    let stiff_f = output(&stiff, "model_dynamic_factor");
+    assert!(close(stiff_f, single, 2e-3), "{stiff_f} vs {single}");
+    assert!(stiff.notes.iter().any(|n| n.contains("Two-degree model")));
+    let soft = output(
+        &run(&rope_item(&[
+            ("hook_mass", "50 kg"),
+            ("drive_stiffness", "2 MN/m"),
+        ]))
+        .unwrap(),
+        "model_dynamic_factor",
+    );
+    assert!(soft < single);
+    let rigid = run(&rope_item(&[("hook_mass", "50 kg")])).unwrap();
+    assert_eq!(output(&rigid, "model_dynamic_factor"), single);
+    assert!(rigid.notes.iter().any(|n| n.contains("drive is rigid")));
+}
