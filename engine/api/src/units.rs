@@ -565,6 +565,14 @@ pub fn parse_expecting(text: &str, expected: Dimension) -> Result<Quantity, Quan
     Ok(q)
 }
 
+/// The number of significant digits in a plain decimal text.
+fn significant_digits(text: &str) -> usize {
+    text.chars()
+        .filter(char::is_ascii_digit)
+        .skip_while(|&c| c == '0')
+        .count()
+}
+
 /// Formats a number with `sig` significant figures in plain decimal
 /// notation, switching to exponent notation only for very large or very
 /// small magnitudes. Deterministic: the same value always prints the same.
@@ -583,21 +591,15 @@ pub fn format_significant(value: f64, sig: usize) -> String {
     if !(-4..=12).contains(&magnitude) {
         return format!("{:.*e}", sig.saturating_sub(1), value);
     }
-    // Round first, then recompute the magnitude: 9.9996 rounds to 10.000.
+    // Rounding can carry into a new digit (9.99996 to four figures is
+    // 10.000, one figure too many), and log10 can land just below a power of
+    // ten: either way the text has one significant digit too many, so one
+    // decimal fewer gives the right text.
     let decimals = (sig as i32 - 1 - magnitude).max(0) as usize;
-    let text = format!("{value:.decimals$}");
-    let rounded: f64 = text.parse().unwrap_or(value);
-    let magnitude2 = if rounded == 0.0 {
-        magnitude
-    } else {
-        rounded.abs().log10().floor() as i32
-    };
-    let text = if magnitude2 != magnitude {
-        let decimals = (sig as i32 - 1 - magnitude2).max(0) as usize;
-        format!("{rounded:.decimals$}")
-    } else {
-        text
-    };
+    let mut text = format!("{value:.decimals$}");
+    if decimals > 0 && significant_digits(&text) > sig {
+        text = format!("{value:.prec$}", prec = decimals - 1);
+    }
     if text.starts_with('-') && text[1..].chars().all(|c| c == '0' || c == '.') {
         text[1..].to_string()
     } else {

@@ -8,7 +8,8 @@
 //!   pages typeset per second;
 //! - the peak resident memory after the runs and after the build.
 //!
-//! Usage: `packwright-bench [RUN_ITEMS] [BUILD_ITEMS]` (defaults 1000 and 100).
+//! Usage: `packwright-bench [RUN_ITEMS] [BUILD_ITEMS]` (defaults 1000 and 100),
+//! or `packwright-bench --generate N DIR` to write a project for profiling.
 //! It prints figures; it asserts nothing about time.
 
 use std::path::Path;
@@ -107,6 +108,14 @@ fn main() {
     let build_items: usize = args.next().and_then(|a| a.parse().ok()).unwrap_or(100);
     let demo = Path::new(env!("CARGO_MANIFEST_DIR")).join("../../projects/harrow-creek");
     let registry = packwright::builtin::registry();
+    // `packwright-bench --generate N DIR` only writes the project, for
+    // profiling the binary on it.
+    if let Some(dir) = std::env::args().nth(3).filter(|_| std::env::args().nth(1).as_deref() == Some("--generate")) {
+        let n = std::env::args().nth(2).and_then(|a| a.parse().ok()).unwrap_or(1000);
+        std::fs::create_dir_all(&dir).expect("mkdir");
+        println!("{} items written to {dir}", generate(&demo, Path::new(&dir), n));
+        return;
+    }
 
     let dir = tempfile::tempdir().expect("temp dir");
     let n = generate(&demo, dir.path(), run_items);
