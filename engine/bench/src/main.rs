@@ -110,10 +110,19 @@ fn main() {
     let registry = packwright::builtin::registry();
     // `packwright-bench --generate N DIR` only writes the project, for
     // profiling the binary on it.
-    if let Some(dir) = std::env::args().nth(3).filter(|_| std::env::args().nth(1).as_deref() == Some("--generate")) {
-        let n = std::env::args().nth(2).and_then(|a| a.parse().ok()).unwrap_or(1000);
+    if let Some(dir) = std::env::args()
+        .nth(3)
+        .filter(|_| std::env::args().nth(1).as_deref() == Some("--generate"))
+    {
+        let n = std::env::args()
+            .nth(2)
+            .and_then(|a| a.parse().ok())
+            .unwrap_or(1000);
         std::fs::create_dir_all(&dir).expect("mkdir");
-        println!("{} items written to {dir}", generate(&demo, Path::new(&dir), n));
+        println!(
+            "{} items written to {dir}",
+            generate(&demo, Path::new(&dir), n)
+        );
         return;
     }
 
