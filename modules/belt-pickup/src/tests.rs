@@ -1,5 +1,5 @@
 //! Tests of the belt-pickup module against the published formulas and check
-//! values of the shared reference sheet (/work/shared/reference.md §1), each
+//! values of the shared reference sheet (shared/reference.md §1, beside the repository), each
 //! assertion naming its source and carrying that sheet's label.
 
 use super::*;

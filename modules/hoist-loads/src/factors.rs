@@ -5,7 +5,7 @@
 //!
 //! Owns no state. Every value that could not be checked against the standard
 //! itself is marked "from memory" beside it, with the confidence given in the
-//! project's reference sheet (/work/shared/reference.md §4).
+//! project's reference sheet (shared/reference.md §4, beside the repository).
 
 use packwright_api::prelude::*;
 use packwright_api::units::FOOT;
