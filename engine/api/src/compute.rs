@@ -37,6 +37,18 @@ pub enum Value {
     Structured(Node),
 }
 
+impl Value {
+    /// A number in SI coherent units as an input value: a plain number when
+    /// dimensionless, else a quantity of `dimension`.
+    pub fn from_si(value: f64, dimension: Dimension) -> Value {
+        if dimension == Dimension::Dimensionless {
+            Value::Number(value)
+        } else {
+            Value::Quantity { value, dimension }
+        }
+    }
+}
+
 /// Where a resolved input came from, for the package's inputs table.
 #[derive(Debug, Clone, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case", tag = "kind")]
@@ -808,15 +820,10 @@ impl Inputs {
             if let Some(text) = text {
                 let q = crate::units::parse_expecting(&text, criterion.dimension)
                     .map_err(|e| format!("criterion `{}`: {e}", criterion.name))?;
-                let value = if criterion.dimension == Dimension::Dimensionless {
-                    Value::Number(q.value_si)
-                } else {
-                    Value::Quantity {
-                        value: q.value_si,
-                        dimension: q.dimension,
-                    }
-                };
-                inputs.criteria.insert(criterion.name.clone(), value);
+                inputs.criteria.insert(
+                    criterion.name.clone(),
+                    Value::from_si(q.value_si, q.dimension),
+                );
             }
         }
         Ok(inputs)

@@ -453,15 +453,7 @@ fn resolve_item(
         }
         if let Some(text) = &c.default {
             if let Ok(q) = packwright_api::units::parse_expecting(text, c.dimension) {
-                let v = if c.dimension == packwright_api::Dimension::Dimensionless {
-                    Value::Number(q.value_si)
-                } else {
-                    Value::Quantity {
-                        value: q.value_si,
-                        dimension: q.dimension,
-                    }
-                };
-                criteria.insert(c.name.clone(), v);
+                criteria.insert(c.name.clone(), Value::from_si(q.value_si, q.dimension));
             }
         }
     }

@@ -9,8 +9,7 @@ use std::collections::BTreeMap;
 use std::sync::Mutex;
 
 use packwright_api::{
-    CalcError, Dimension, Inputs, Measure, Module, ModuleDeclaration, Origin, Outcome,
-    ResolvedInput, Value,
+    CalcError, Inputs, Measure, Module, ModuleDeclaration, Origin, Outcome, ResolvedInput, Value,
 };
 use rayon::prelude::*;
 use sha2::{Digest, Sha256};
@@ -227,14 +226,7 @@ fn fill_links(item: &PlannedItem, done: &BTreeMap<String, ItemRun>) -> Option<In
     for link in &item.links {
         let source = done.get(&link.item)?;
         let m: &Measure = source.outcome.outputs.get(&link.output)?;
-        let value = if m.dimension == Dimension::Dimensionless {
-            Value::Number(m.value)
-        } else {
-            Value::Quantity {
-                value: m.value,
-                dimension: m.dimension,
-            }
-        };
+        let value = Value::from_si(m.value, m.dimension);
         inputs.values.insert(
             link.input.clone(),
             ResolvedInput {
