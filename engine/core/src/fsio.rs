@@ -113,6 +113,138 @@ pub fn replace_dir(target: &Path, files: &[(String, Vec<u8>)]) -> io::Result<()>
     Ok(())
 }
 
+/// What [`update_dir`] does with one file of the new version.
+#[derive(Debug, Clone, Copy)]
+pub enum Update<'a> {
+    /// The target folder already holds this file with the new content.
+    Keep,
+    /// The file's new content.
+    Write(&'a [u8]),
+}
+
+/// The inode number of every entry of a folder, by name (empty when the
+/// folder is missing).
+fn inodes(dir: &Path) -> std::collections::HashMap<String, u64> {
+    use std::os::unix::fs::DirEntryExt;
+    fs::read_dir(dir)
+        .map(|entries| {
+            entries
+                .flatten()
+                .map(|e| (e.file_name().to_string_lossy().into_owned(), e.ino()))
+                .collect()
+        })
+        .unwrap_or_default()
+}
+
+fn remove_any(path: &Path) -> io::Result<()> {
+    match fs::symlink_metadata(path) {
+        Ok(m) if m.is_dir() => fs::remove_dir_all(path),
+        Ok(_) => fs::remove_file(path),
+        Err(e) if e.kind() == io::ErrorKind::NotFound => Ok(()),
+        Err(e) => Err(e),
+    }
+}
+
+/// More new files than this are flushed with one `syncfs` rather than one
+/// `fsync` each.
+const SYNC_EACH_UP_TO: usize = 16;
+
+/// Makes the flat folder `target` hold exactly `files`, atomically, with
+/// work in proportion to what changed.
+///
+/// `spare` is a folder on the same file system that this function alone
+/// writes (in the cache); after a call it holds the version of `target`
+/// before it. The next call turns the spare into the new version: files
+/// that are the same inode in both folders are left alone, kept files are
+/// hard-linked from `target`, new contents are written as new files (never
+/// into an inode `target` shares), and stale entries go. Then one
+/// `renameat2(RENAME_EXCHANGE)` swaps the two folders, so `target` holds
+/// the complete old or the complete new version at every moment, as
+/// [`replace_dir`] guarantees, without a thousand links and unlinks for a
+/// one-file change. Nothing in the spare is trusted but its inode numbers.
+///
+/// Every [`Update::Keep`] must name a file that `target` holds with the new
+/// content. The caller keeps other writers out (the cache's lock).
+pub fn update_dir(target: &Path, spare: &Path, files: &[(String, Update<'_>)]) -> io::Result<()> {
+    clean_leftovers(target);
+    fs::create_dir_all(spare)?;
+    let in_spare = inodes(spare);
+    let in_target = inodes(target);
+    let wanted: std::collections::HashSet<&str> = files.iter().map(|(n, _)| n.as_str()).collect();
+    for name in in_spare.keys() {
+        if !wanted.contains(name.as_str()) {
+            remove_any(&spare.join(name))?;
+        }
+    }
+    let written = files
+        .iter()
+        .filter(|(_, u)| matches!(u, Update::Write(_)))
+        .count();
+    let sync_each = written <= SYNC_EACH_UP_TO;
+    for (name, update) in files {
+        let path = spare.join(name);
+        match update {
+            Update::Keep => {
+                let same = in_spare.contains_key(name) && in_spare.get(name) == in_target.get(name);
+                if same {
+                    continue;
+                }
+                remove_any(&path)?;
+                let old = target.join(name);
+                if fs::hard_link(&old, &path).is_err() {
+                    fs::copy(&old, &path)?;
+                    if sync_each {
+                        fs::File::open(&path)?.sync_all()?;
+                    }
+                }
+            }
+            Update::Write(bytes) => {
+                remove_any(&path)?;
+                if sync_each {
+                    write_synced(&path, bytes)?;
+                } else {
+                    fs::write(&path, bytes)?;
+                }
+            }
+        }
+    }
+    if sync_each {
+        sync_dir(spare)?;
+    } else {
+        // One flush of the file system for the whole folder: a thousand
+        // result files would otherwise cost a thousand fsyncs.
+        let dir = fs::File::open(spare)?;
+        rustix::fs::syncfs(&dir).map_err(io::Error::from)?;
+    }
+    if target.exists() {
+        rustix::fs::renameat_with(
+            rustix::fs::CWD,
+            spare,
+            rustix::fs::CWD,
+            target,
+            rustix::fs::RenameFlags::EXCHANGE,
+        )
+        .map_err(io::Error::from)?;
+    } else {
+        fs::rename(spare, target)?;
+        // The first write of the folder also leaves a spare (links to the
+        // same files), so the next update costs what changed, not a link
+        // per file. Without one the next update only costs more.
+        if fs::create_dir(spare).is_ok() {
+            for (name, _) in files {
+                if fs::hard_link(target.join(name), spare.join(name)).is_err() {
+                    let _ = fs::remove_dir_all(spare);
+                    break;
+                }
+            }
+        }
+    }
+    for dir in [target.parent(), spare.parent()].into_iter().flatten() {
+        sync_dir(dir)?;
+    }
+    Ok(())
+}
+
 /// Writes one file atomically: the new content goes to a hidden file beside
 /// the target's folder (so a crash leaves nothing inside the folder, where
 /// `git add issued/` would pick it up) and is renamed over the target.

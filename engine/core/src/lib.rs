@@ -16,6 +16,7 @@ pub mod diagnostic;
 pub mod diff;
 pub mod display;
 pub mod fsio;
+pub mod index;
 pub mod issued;
 pub mod project;
 pub mod registry;
@@ -27,6 +28,8 @@ pub mod yaml;
 
 use std::collections::BTreeMap;
 use std::path::Path;
+
+use rayon::prelude::*;
 
 pub use diagnostic::{Diagnostic, Diagnostics};
 pub use project::Project;
@@ -120,24 +123,145 @@ pub struct RunOptions {
     pub on_plan: Option<std::sync::Arc<dyn Fn(usize) + Send + Sync>>,
 }
 
+/// One file of `results/` as a run makes it.
+struct ResultFile {
+    name: String,
+    /// [`index::result_key`], for item files.
+    key: Option<index::Hash>,
+    /// Digest of the text.
+    content: index::Hash,
+    /// The text, unless the index vouched for the file on disk and so
+    /// it was not formatted.
+    bytes: Option<Vec<u8>>,
+    /// Whether `results/` already holds this text.
+    on_disk: bool,
+}
+
+/// Makes one result file: from the index when `results/` holds the file
+/// the index describes under the same key, otherwise formatted and compared
+/// with what is on disk (by the index's digest when the stamp matches, by
+/// reading the file when not).
+fn result_file(
+    results: &Path,
+    index: &index::Index,
+    name: String,
+    key: Option<index::Hash>,
+    text: impl FnOnce() -> String,
+) -> ResultFile {
+    let verified = index.verified(results, &name);
+    if let (Some(k), Some(entry)) = (key, verified) {
+        if entry.key == Some(k) {
+            return ResultFile {
+                content: entry.content,
+                name,
+                key,
+                bytes: None,
+                on_disk: true,
+            };
+        }
+    }
+    let bytes = text().into_bytes();
+    let content = index::hash(&bytes);
+    let on_disk = match verified {
+        Some(entry) => entry.content == content,
+        None => std::fs::read(results.join(&name)).is_ok_and(|old| old == bytes),
+    };
+    ResultFile {
+        name,
+        key,
+        content,
+        bytes: Some(bytes),
+        on_disk,
+    }
+}
+
 /// A computed project whose results are not written yet.
 pub struct Computed {
     /// The project.
     pub project: Project,
     /// What the run produced.
     pub outcome: RunOutcome,
-    files: Vec<(String, Vec<u8>)>,
+    files: Vec<ResultFile>,
+    index: index::Index,
     store: cache::Cache,
 }
 
 impl Computed {
     /// Replaces `results/` with this run's files (atomically) and stores
-    /// the computed outcomes in the cache.
+    /// the computed outcomes in the cache. When `results/` already holds
+    /// exactly these files nothing in it is touched; otherwise only the
+    /// changed files are written (see [`fsio::update_dir`]).
     pub fn write_results(&self) -> Result<(), EngineError> {
-        fsio::replace_dir(&self.project.root.join("results"), &self.files)
-            .map_err(|e| EngineError::Io(format!("cannot write results/: {e}")))?;
+        let results = self.project.root.join("results");
+        let cache_dir = self.store.dir();
+        let io = |e: std::io::Error| EngineError::Io(format!("cannot write results/: {e}"));
+        std::fs::create_dir_all(cache_dir).map_err(io)?;
+        // Two runs at once would both rebuild the spare folder.
+        let lock = std::fs::File::create(cache_dir.join(index::LOCK_FILE)).map_err(io)?;
+        rustix::fs::flock(&lock, rustix::fs::FlockOperation::LockExclusive)
+            .map_err(|e| io(e.into()))?;
+        let all_there = self.files.iter().all(|f| f.on_disk)
+            && std::fs::read_dir(&results).is_ok_and(|d| d.count() == self.files.len());
+        if !all_there {
+            let updates: Vec<(String, fsio::Update<'_>)> = self
+                .files
+                .iter()
+                .map(|f| {
+                    let update = match (&f.bytes, f.on_disk) {
+                        (Some(b), false) => fsio::Update::Write(b),
+                        _ => fsio::Update::Keep,
+                    };
+                    (f.name.clone(), update)
+                })
+                .collect();
+            let spare = cache_dir.join(index::SPARE_FOLDER);
+            if let Err(e) = fsio::update_dir(&results, &spare, &updates) {
+                // The spare folder may sit on another file system (a linked
+                // cache folder): write the folder whole instead.
+                let _ = std::fs::remove_dir_all(&spare);
+                let whole = self.whole_files(&results).map_err(io)?;
+                fsio::replace_dir(&results, &whole).map_err(|e2| {
+                    EngineError::Io(format!("cannot write results/: {e2} (and {e})"))
+                })?;
+            }
+        }
+        let mut index = index::Index::new();
+        let entries: Vec<Option<(String, index::Entry)>> = self
+            .files
+            .par_iter()
+            .map(|f| {
+                index::stamp_of(&results.join(&f.name)).map(|stamp| {
+                    (
+                        f.name.clone(),
+                        index::Entry {
+                            key: f.key,
+                            content: f.content,
+                            stamp,
+                        },
+                    )
+                })
+            })
+            .collect();
+        index.files = entries.into_iter().flatten().collect();
+        if index != self.index {
+            index.save(cache_dir);
+        }
         self.store.save(&self.outcome);
         Ok(())
+    }
+
+    /// Every file's bytes, those not formatted read from `results/`.
+    fn whole_files(&self, results: &Path) -> std::io::Result<Vec<(String, Vec<u8>)>> {
+        self.files
+            .iter()
+            .map(|f| {
+                let bytes = match &f.bytes {
+                    Some(b) => b.clone(),
+                    None => std::fs::read(results.join(&f.name))?,
+                };
+                Ok((f.name.clone(), bytes))
+            })
+            .collect()
     }
 }
 
@@ -192,11 +316,35 @@ pub fn compute_project(
     if !outcome.failures.is_empty() || !outcome.skipped.is_empty() {
         return Err(EngineError::Calculation(outcome.failures, outcome.skipped));
     }
-    let files = results::result_files(&outcome, &key_outputs(registry));
+    // `--fresh` trusts nothing stored: every file is formatted again.
+    let index = if options.fresh {
+        index::Index::new()
+    } else {
+        index::Index::load(store.dir())
+    };
+    let results_dir = project.root.join("results");
+    let mut files: Vec<ResultFile> = outcome
+        .items
+        .par_iter()
+        .map(|(id, run)| {
+            let key = Some(index::result_key(run));
+            result_file(&results_dir, &index, format!("{id}.yaml"), key, || {
+                results::item_yaml(run)
+            })
+        })
+        .collect();
+    files.push(result_file(
+        &results_dir,
+        &index,
+        "summary.csv".into(),
+        None,
+        || results::summary_csv(&outcome, &key_outputs(registry)),
+    ));
     Ok(Computed {
         project,
         outcome,
         files,
+        index,
         store,
     })
 }
