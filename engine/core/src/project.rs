@@ -5,11 +5,12 @@
 //! checked; its inputs are checked against the module in `resolve`).
 //! Owns no state: a [`Project`] is a value built from the files.
 
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, HashMap};
 use std::path::{Path, PathBuf};
 use std::sync::Arc;
 
 use packwright_api::{Node, NodeValue, Span, UnitSystem};
+use rayon::prelude::*;
 use walkdir::WalkDir;
 
 use crate::diagnostic::{Diagnostic, Diagnostics};
@@ -287,9 +288,15 @@ fn read_inside(root: &Path, path: &Path, rel: &Arc<str>) -> Result<Vec<u8>, Diag
             "project files inside the project folder; copy the file in instead of linking it",
         ));
     }
-    // Look before reading: a device, a pipe or a huge file named `*.yaml`
-    // must not hang the tool or fill its memory.
-    let meta = std::fs::metadata(&real)
+    check_regular(&real, rel)?;
+    std::fs::read(&real).map_err(|e| Diagnostic::new(here, format!("cannot read the file: {e}")))
+}
+
+/// Looks before reading: a device, a pipe or a huge file named `*.yaml`
+/// must not hang the tool or fill its memory.
+fn check_regular(real: &Path, rel: &Arc<str>) -> Result<(), Diagnostic> {
+    let here = Some(Span::new(rel.clone(), 1, 1));
+    let meta = std::fs::metadata(real)
         .map_err(|e| Diagnostic::new(here.clone(), format!("cannot read the file: {e}")))?;
     if !meta.is_file() {
         return Err(Diagnostic::new(
@@ -309,7 +316,28 @@ fn read_inside(root: &Path, path: &Path, rel: &Arc<str>) -> Result<Vec<u8>, Diag
         )
         .expected("one calculation item per file, a page or two of YAML"));
     }
-    std::fs::read(&real).map_err(|e| Diagnostic::new(here, format!("cannot read the file: {e}")))
+    Ok(())
+}
+
+/// Reads a file the walk found. The walk follows no links, so a file that
+/// is no link itself is inside the tree and needs no `canonicalize` (a
+/// `readlink` per path component, a thousand files over).
+fn read_file(
+    root: &Path,
+    path: &Path,
+    rel: &Arc<str>,
+    linked: bool,
+) -> Result<Vec<u8>, Diagnostic> {
+    if linked {
+        return read_inside(root, path, rel);
+    }
+    check_regular(path, rel)?;
+    std::fs::read(path).map_err(|e| {
+        Diagnostic::new(
+            Some(Span::new(rel.clone(), 1, 1)),
+            format!("cannot read the file: {e}"),
+        )
+    })
 }
 
 fn relative(root: &Path, path: &Path) -> Arc<str> {
@@ -391,6 +419,17 @@ pub fn load(root: &Path) -> Result<(Project, Diagnostics), Diagnostics> {
                 && (WRITTEN_FOLDERS.contains(&name.as_ref())
                     || OTHER_FOLDERS.contains(&name.as_ref())))
         });
+    // The walk is cheap and ordered; reading and parsing the files is the
+    // cost, so it runs in parallel and the results are taken in walk order.
+    enum Step {
+        Problem(Diagnostic),
+        File {
+            path: PathBuf,
+            rel: Arc<str>,
+            linked: bool,
+        },
+    }
+    let mut steps = Vec::new();
     for entry in walker {
         let entry = match entry {
             Ok(e) => e,
@@ -399,10 +438,10 @@ pub fn load(root: &Path) -> Result<(Project, Diagnostics), Diagnostics> {
                     .path()
                     .map(|p| relative(&root, p))
                     .unwrap_or_else(|| Arc::from("?"));
-                out.push(Diagnostic::new(
+                steps.push(Step::Problem(Diagnostic::new(
                     Some(Span::new(rel, 1, 1)),
                     format!("cannot read this part of the project tree: {e}"),
-                ));
+                )));
                 continue;
             }
         };
@@ -414,7 +453,7 @@ pub fn load(root: &Path) -> Result<(Project, Diagnostics), Diagnostics> {
         if entry.path_is_symlink() && entry.depth() > 0 {
             if let Ok(real) = path.canonicalize() {
                 if real.is_dir() && !real.starts_with(&root) {
-                    out.push(
+                    steps.push(Step::Problem(
                         Diagnostic::new(
                             Some(Span::new(relative(&root, path), 1, 1)),
                             format!(
@@ -423,7 +462,7 @@ pub fn load(root: &Path) -> Result<(Project, Diagnostics), Diagnostics> {
                             ),
                         )
                         .expected("project files inside the project folder; copy the folder in instead of linking it"),
-                    );
+                    ));
                     continue;
                 }
             }
@@ -445,10 +484,40 @@ pub fn load(root: &Path) -> Result<(Project, Diagnostics), Diagnostics> {
         if entry.path_is_symlink() && path.is_dir() {
             continue;
         }
-        let node = match read_inside(&root, path, &rel).and_then(|bytes| {
-            sources.insert(rel.clone(), String::from_utf8_lossy(&bytes).into_owned());
-            yaml::parse_bytes(&rel, &bytes)
-        }) {
+        steps.push(Step::File {
+            path: path.to_path_buf(),
+            rel,
+            linked: entry.path_is_symlink(),
+        });
+    }
+    type Read = Result<(String, Result<Option<Node>, Diagnostic>), Diagnostic>;
+    let read: Vec<Option<Read>> = steps
+        .par_iter()
+        .map(|step| match step {
+            Step::Problem(_) => None,
+            Step::File { path, rel, linked } => {
+                Some(read_file(&root, path, rel, *linked).map(|bytes| {
+                    let text = String::from_utf8_lossy(&bytes).into_owned();
+                    (text, yaml::parse_bytes(rel, &bytes))
+                }))
+            }
+        })
+        .collect();
+    let mut item_ids: HashMap<String, usize> = HashMap::new();
+    for (step, read) in steps.into_iter().zip(read) {
+        let (rel, read) = match (step, read) {
+            (Step::Problem(d), _) => {
+                out.push(d);
+                continue;
+            }
+            (Step::File { rel, .. }, Some(read)) => (rel, read),
+            (Step::File { .. }, None) => continue,
+        };
+        let parsed = read.map(|(text, parsed)| {
+            sources.insert(rel.clone(), text);
+            parsed
+        });
+        let node = match parsed.and_then(|p| p) {
             Ok(Some(node)) => node,
             Ok(None) => {
                 out.push(
@@ -480,7 +549,8 @@ pub fn load(root: &Path) -> Result<(Project, Diagnostics), Diagnostics> {
                 }
             }
         } else if let Some(item) = parse_item(&node, rel.clone(), &mut out) {
-            if let Some(prev) = items.iter().find(|i| i.id == item.id) {
+            if let Some(&prev) = item_ids.get(&item.id) {
+                let prev: &ItemFile = &items[prev];
                 out.push(
                     Diagnostic::new(
                         Some(item.id_span.clone()),
@@ -490,6 +560,7 @@ pub fn load(root: &Path) -> Result<(Project, Diagnostics), Diagnostics> {
                     .expected("a unique id for each item, such as `CV-101-LOAD`"),
                 );
             } else {
+                item_ids.insert(item.id.clone(), items.len());
                 items.push(item);
             }
         }

@@ -5,12 +5,14 @@
 //!
 //! Owns no state: a [`Plan`] is a value built from a project and a registry.
 
-use std::collections::{BTreeMap, BTreeSet};
+use std::collections::{BTreeMap, BTreeSet, HashMap};
 
 use packwright_api::{
     parse_scalar, CalcError, InputKind, InputSpec, Inputs, ModuleDeclaration, Need, Node,
     NodeValue, Origin, ResolvedInput, Span, Value,
 };
+
+use rayon::prelude::*;
 
 use crate::diagnostic::{Diagnostic, Diagnostics};
 use crate::project::{did_you_mean, ItemFile, Project};
@@ -209,6 +211,7 @@ fn resolve_item(
     item: &ItemFile,
     decl: &ModuleDeclaration,
     project: &Project,
+    by_id: &HashMap<&str, &ItemFile>,
     registry: &Registry,
     out: &mut Diagnostics,
 ) -> Option<PlannedItem> {
@@ -461,7 +464,7 @@ fn resolve_item(
     // Links: the target exists, has the output, and the dimensions agree.
     for link in &links {
         let spec = decl.input(&link.input).expect("link input is declared");
-        let Some(target) = project.items.iter().find(|i| i.id == link.item) else {
+        let Some(&target) = by_id.get(link.item.as_str()) else {
             let ids: Vec<&str> = project.items.iter().map(|i| i.id.as_str()).collect();
             let mut d = Diagnostic::new(
                 Some(link.span.clone()),
@@ -562,28 +565,47 @@ pub fn plan(project: &Project, registry: &Registry) -> Result<Plan, Diagnostics>
     let mut out = Diagnostics::default();
     let mut items = BTreeMap::new();
     let known: Vec<&str> = registry.names().collect();
-    for item in &project.items {
-        let Some(registered) = registry.get(&item.module) else {
-            let mut d = Diagnostic::new(
-                Some(item.module_span.clone()),
-                format!(
-                    "item `{}` names module `{}`, which packwright does not have",
-                    item.id, item.module
-                ),
-            )
-            .expected(format!(
-                "one of: {} (see `packwright modules`)",
-                known.join(", ")
-            ));
-            if let Some(best) = did_you_mean(&item.module, known.iter().copied()) {
-                d.message.push_str(&format!(" (did you mean `{best}`?)"));
-            }
-            out.push(d);
-            continue;
-        };
-        if let Some(planned) =
-            resolve_item(item, &registered.declaration, project, registry, &mut out)
-        {
+    let by_id: HashMap<&str, &ItemFile> =
+        project.items.iter().map(|i| (i.id.as_str(), i)).collect();
+    // Items resolve independently, so in parallel; their problems are
+    // gathered in item order.
+    let resolved: Vec<(Option<PlannedItem>, Diagnostics)> = project
+        .items
+        .par_iter()
+        .map(|item| {
+            let mut out = Diagnostics::default();
+            let Some(registered) = registry.get(&item.module) else {
+                let mut d = Diagnostic::new(
+                    Some(item.module_span.clone()),
+                    format!(
+                        "item `{}` names module `{}`, which packwright does not have",
+                        item.id, item.module
+                    ),
+                )
+                .expected(format!(
+                    "one of: {} (see `packwright modules`)",
+                    known.join(", ")
+                ));
+                if let Some(best) = did_you_mean(&item.module, known.iter().copied()) {
+                    d.message.push_str(&format!(" (did you mean `{best}`?)"));
+                }
+                out.push(d);
+                return (None, out);
+            };
+            let planned = resolve_item(
+                item,
+                &registered.declaration,
+                project,
+                &by_id,
+                registry,
+                &mut out,
+            );
+            (planned, out)
+        })
+        .collect();
+    for (planned, problems) in resolved {
+        out.0.extend(problems.0);
+        if let Some(planned) = planned {
             items.insert(planned.id.clone(), planned);
         }
     }

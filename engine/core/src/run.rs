@@ -67,24 +67,33 @@ pub trait OutcomeStore: Sync {
 /// The tool's version, which enters every digest.
 pub const TOOL_VERSION: &str = env!("CARGO_PKG_VERSION");
 
-/// A canonical text of resolved inputs, for digests.
+/// A canonical text of resolved inputs, for digests. Written into one
+/// buffer: a rerun digests every item, and a `format!` per value was a
+/// visible part of it. The text is unchanged, and so is every digest.
 fn canonical_inputs(inputs: &Inputs) -> String {
-    let mut text = String::new();
-    let value_text = |v: &Value| match v {
-        // `{:?}` of f64 is the shortest text that reads back to the same bits.
-        Value::Quantity { value, dimension } => format!("q:{value:?}:{dimension}"),
-        Value::Number(x) => format!("n:{x:?}"),
-        Value::Count(n) => format!("c:{n}"),
-        Value::Choice(s) => format!("w:{s:?}"),
-        Value::Flag(b) => format!("f:{b}"),
-        Value::Material(s) => format!("m:{s:?}"),
-        Value::Structured(node) => format!("s:{:?}", structured_text(node)),
+    use std::fmt::Write as _;
+    let mut text = String::with_capacity(64 * (inputs.values.len() + inputs.criteria.len()));
+    let value_text = |text: &mut String, v: &Value| {
+        let _ = match v {
+            // `{:?}` of f64 is the shortest text that reads back to the same bits.
+            Value::Quantity { value, dimension } => write!(text, "q:{value:?}:{dimension}"),
+            Value::Number(x) => write!(text, "n:{x:?}"),
+            Value::Count(n) => write!(text, "c:{n}"),
+            Value::Choice(s) => write!(text, "w:{s:?}"),
+            Value::Flag(b) => write!(text, "f:{b}"),
+            Value::Material(s) => write!(text, "m:{s:?}"),
+            Value::Structured(node) => write!(text, "s:{:?}", structured_text(node)),
+        };
     };
     for (name, input) in &inputs.values {
-        text.push_str(&format!("input {name} = {}\n", value_text(&input.value)));
+        let _ = write!(text, "input {name} = ");
+        value_text(&mut text, &input.value);
+        text.push('\n');
     }
     for (name, v) in &inputs.criteria {
-        text.push_str(&format!("criterion {name} = {}\n", value_text(v)));
+        let _ = write!(text, "criterion {name} = ");
+        value_text(&mut text, v);
+        text.push('\n');
     }
     text
 }
@@ -129,8 +138,13 @@ pub fn digest(inputs: &Inputs, decl: &ModuleDeclaration, fingerprint: Option<&st
     ));
     h.update(canonical_inputs(inputs));
     let bytes = h.finalize();
-    let hex: String = bytes.iter().map(|b| format!("{b:02x}")).collect();
-    format!("sha256:{hex}")
+    let mut text = String::with_capacity(7 + 64);
+    text.push_str("sha256:");
+    for b in bytes {
+        use std::fmt::Write as _;
+        let _ = write!(text, "{b:02x}");
+    }
+    text
 }
 
 /// Checks an outcome against the declaration: every required output there,
