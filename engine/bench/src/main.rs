@@ -8,7 +8,8 @@
 //!   pages typeset per second;
 //! - the peak resident memory after the runs and after the build.
 //!
-//! Usage: `packwright-bench [RUN_ITEMS] [BUILD_ITEMS]` (defaults 1000 and 100),
+//! Usage: `packwright-bench [RUN_ITEMS] [BUILD_ITEMS]` (defaults 1000 and 100;
+//! 0 build items skips the build),
 //! or `packwright-bench --generate N DIR` to write a project for profiling.
 //! It prints figures; it asserts nothing about time.
 
@@ -165,6 +166,10 @@ fn main() {
         one.computed
     );
     println!("  peak memory after the runs: {run_peak:.0} MiB");
+    // `packwright-bench N 0` measures the runs only.
+    if build_items == 0 {
+        return;
+    }
 
     let dir = tempfile::tempdir().expect("temp dir");
     let n = generate(&demo, dir.path(), build_items);
