@@ -135,6 +135,9 @@ struct ResultFile {
     bytes: Option<Vec<u8>>,
     /// Whether `results/` already holds this text.
     on_disk: bool,
+    /// The stamp of the file in `results/` when it was found to hold the
+    /// text, to see after taking the lock that no other writer came between.
+    seen: Option<index::Stamp>,
 }
 
 /// Makes one result file: from the index when `results/` holds the file
@@ -153,6 +156,7 @@ fn result_file(
         if entry.key == Some(k) {
             return ResultFile {
                 content: entry.content,
+                seen: Some(entry.stamp),
                 name,
                 key,
                 bytes: None,
@@ -162,9 +166,13 @@ fn result_file(
     }
     let bytes = text().into_bytes();
     let content = index::hash(&bytes);
-    let on_disk = match verified {
-        Some(entry) => entry.content == content,
-        None => std::fs::read(results.join(&name)).is_ok_and(|old| old == bytes),
+    let path = results.join(&name);
+    let (on_disk, seen) = match verified {
+        Some(entry) => (entry.content == content, Some(entry.stamp)),
+        None => {
+            let seen = index::stamp_of(&path);
+            (std::fs::read(&path).is_ok_and(|old| old == bytes), seen)
+        }
     };
     ResultFile {
         name,
@@ -172,6 +180,7 @@ fn result_file(
         content,
         bytes: Some(bytes),
         on_disk,
+        seen,
     }
 }
 
@@ -200,6 +209,15 @@ impl Computed {
         let lock = std::fs::File::create(cache_dir.join(index::LOCK_FILE)).map_err(io)?;
         rustix::fs::flock(&lock, rustix::fs::FlockOperation::LockExclusive)
             .map_err(|e| io(e.into()))?;
+        let moved = self
+            .files
+            .par_iter()
+            .any(|f| f.on_disk && index::stamp_of(&results.join(&f.name)) != f.seen);
+        if moved {
+            return Err(EngineError::Io(
+                "results/ changed while packwright ran (another run?); nothing was written, run again".into(),
+            ));
+        }
         let all_there = self.files.iter().all(|f| f.on_disk)
             && std::fs::read_dir(&results).is_ok_and(|d| d.count() == self.files.len());
         if !all_there {
