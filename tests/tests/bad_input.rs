@@ -774,7 +774,7 @@ fn other_bad_templates_are_refused() {
         &[
             "templates/cuver.typ.hbs",
             "no built-in template is called `cuver`",
-            "known templates: preamble, cover",
+            "known templates: preamble, page-furniture, cover",
         ],
     );
     let dir = built_then_overridden("cover.typ.hbs", b"= Cover \xFF\n");

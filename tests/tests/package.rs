@@ -137,3 +137,80 @@ fn a_project_template_replaces_the_default() {
         "the default was replaced"
     );
 }
+
+/// The package is typeset in parts (front matter, one per item, references)
+/// and put together: every page carries "page n of N" with the true total,
+/// the contents names the page each item starts on, every link between
+/// parts ends on a page of the document, and no internal address is left.
+#[test]
+fn parts_are_put_together_with_true_pages_and_links() {
+    let demo = demo_copy();
+    let ran = packwright(demo.path(), &["build", "."]);
+    assert_eq!(ran.code, 0, "{}", ran.all());
+    let pdf = demo.path().join("package/HCT-MH-CALC-0042-B.pdf");
+    let total = page_count(&pdf);
+    let doc = lopdf::Document::load(&pdf).expect("the PDF parses");
+    let pages = doc.get_pages();
+    let page_ids: Vec<lopdf::ObjectId> = pages.values().copied().collect();
+    let texts = pdf_extract::extract_text_by_pages(&pdf).expect("the PDF's text extracts");
+    assert_eq!(texts.len(), total);
+    for (index, text) in texts.iter().enumerate() {
+        let number = index + 1;
+        let text = text.split_whitespace().collect::<Vec<_>>().join(" ");
+        assert!(
+            text.contains(&format!("page {number} of {total}")),
+            "page {number} has its footer: {text}"
+        );
+    }
+    let mut internal = 0;
+    for id in &page_ids {
+        let annots = doc.get_page_annotations(*id).unwrap_or_default();
+        for annot in annots {
+            // Typst writes a link between parts as a destination object.
+            let Some(dest) = annot
+                .get(b"Dest")
+                .ok()
+                .and_then(|d| doc.dereference(d).ok())
+                .and_then(|(_, d)| d.as_array().ok().cloned())
+            else {
+                continue;
+            };
+            let target = dest[0].as_reference().expect("a page reference");
+            assert!(
+                page_ids.contains(&target),
+                "a link ends on a page of the document"
+            );
+            internal += 1;
+        }
+    }
+    let raw = String::from_utf8_lossy(&std::fs::read(&pdf).expect("the PDF")).into_owned();
+    // The demo has no web links: a URI would be a cross-part address left
+    // unresolved.
+    assert!(
+        !raw.contains("/URI"),
+        "no internal address is left as a web link"
+    );
+    assert!(
+        internal >= 30,
+        "contents, summary and inputs link across parts ({internal})"
+    );
+    // The contents line of the first item names the page its section starts on.
+    let contents = &texts[2];
+    let line = contents
+        .lines()
+        .find(|l| l.contains("BIN-03-OUTLET:"))
+        .expect("the first item is in the contents")
+        .to_string();
+    let start: usize = contents
+        .lines()
+        .skip_while(|l| !l.contains("BIN-03-OUTLET:"))
+        .flat_map(|l| l.split_whitespace())
+        .filter_map(|w| w.parse().ok())
+        .find(|n| *n > 3)
+        .expect("a page number");
+    let first_page = &texts[start - 1];
+    assert!(
+        first_page.contains("BIN-03-OUTLET"),
+        "{line}: the section starts on page {start}"
+    );
+}

@@ -129,6 +129,8 @@ struct MethodRow {
 
 #[derive(Serialize)]
 struct ItemData {
+    /// The item's section number (1 for the first item).
+    number: usize,
     id: String,
     label: String,
     title: String,
@@ -150,6 +152,19 @@ struct ItemData {
     assumptions: Vec<String>,
     cautions: Vec<String>,
     references: Vec<String>,
+}
+
+/// A line of the contents: a section, where it starts and what it links to.
+#[derive(Serialize, Clone, Debug, PartialEq)]
+pub struct ContentsRow {
+    /// The section number, empty for unnumbered sections.
+    pub number: String,
+    /// The section's title as printed.
+    pub title: String,
+    /// The page the section starts on.
+    pub page: usize,
+    /// The cross-reference target (`label:NAME` or `page:N`).
+    pub target: String,
 }
 
 #[derive(Serialize)]
@@ -189,6 +204,8 @@ pub struct PackageData {
     failed_count: usize,
     items: Vec<ItemData>,
     references: Vec<String>,
+    /// Filled in by the typesetter once the sections' pages are known.
+    contents: Vec<ContentsRow>,
     tool_version: String,
     #[serde(skip)]
     item_module: Vec<(String, String)>,
@@ -198,6 +215,24 @@ impl PackageData {
     /// Item ids with their module names, in package order.
     pub fn item_modules(&self) -> &[(String, String)] {
         &self.item_module
+    }
+
+    /// The number of figures (plots) of each item, in package order.
+    pub fn figures_per_item(&self) -> Vec<usize> {
+        self.items.iter().map(|i| i.plots.len()).collect()
+    }
+
+    /// The contents lines of the item sections, their pages not yet known.
+    pub fn item_contents(&self) -> Vec<ContentsRow> {
+        self.items
+            .iter()
+            .map(|i| ContentsRow {
+                number: i.number.to_string(),
+                title: format!("{}: {}", i.id, i.title),
+                page: 0,
+                target: format!("label:{}", i.label),
+            })
+            .collect()
     }
 
     /// The short digest printed in every footer.
@@ -441,6 +476,7 @@ pub fn build(
         });
         item_module.push((run.item.id.clone(), decl.name.clone()));
         items.push(ItemData {
+            number: items.len() + 1,
             id: run.item.id.clone(),
             label: label_of(&run.item.id),
             title: run.item.title.clone(),
@@ -501,6 +537,7 @@ pub fn build(
         summary,
         items,
         references: all_refs.into_iter().collect(),
+        contents: Vec::new(),
         tool_version: packwright_core::run::TOOL_VERSION.into(),
         item_module,
     };

@@ -9,6 +9,7 @@
 //! [`build_and_write`] (`package/<document>-<rev>.pdf` and `.typ`, replaced
 //! whole). Depends on the engine's data types, names no module.
 
+pub mod compose;
 pub mod data;
 pub mod escape;
 pub mod plot;
@@ -22,7 +23,6 @@ use std::time::{Duration, Instant};
 use packwright_core::{Project, Registry, RunOutcome};
 use typst::foundations::{Datetime, Smart};
 use typst::WorldExt;
-use typst_layout::PagedDocument;
 
 pub use data::{ChangeRow, Review};
 
@@ -112,8 +112,11 @@ pub struct Timings {
     pub data: Duration,
     /// Templates.
     pub templates: Duration,
-    /// Typst compile (layout).
+    /// Typst compile (layout) of every part, wall time.
     pub compile: Duration,
+    /// How many Typst documents were compiled (parts, front passes,
+    /// furniture).
+    pub compiles: usize,
     /// PDF export.
     pub pdf: Duration,
 }
@@ -122,10 +125,11 @@ impl fmt::Display for Timings {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         write!(
             f,
-            "data and plots {:.3} s, templates {:.3} s, Typst compile {:.3} s, PDF write {:.3} s",
+            "data and plots {:.3} s, templates {:.3} s, Typst compile {:.3} s ({} documents), PDF write {:.3} s",
             self.data.as_secs_f64(),
             self.templates.as_secs_f64(),
             self.compile.as_secs_f64(),
+            self.compiles,
             self.pdf.as_secs_f64()
         )
     }
@@ -166,27 +170,35 @@ fn date_of(text: &str) -> Option<Datetime> {
     Datetime::from_ymd(y, m, d)
 }
 
-/// Typesets a Typst source (with in-memory plot files) into a PDF.
-pub fn typeset(
-    source: String,
+/// Typesets the rendered package into a PDF: the parts through
+/// [`compose::compose`], then one PDF export with a pinned identifier,
+/// creator and timestamp.
+fn typeset(
+    templates: &templates::Templates,
+    rendered: &templates::Rendered,
+    data: &data::PackageData,
     files: Vec<data::PackageFile>,
     project: &Project,
-    segments: &[templates::Segment],
-) -> Result<(Vec<u8>, usize, Duration, Duration), ReportError> {
+) -> Result<Typeset, ReportError> {
     let rev = project
         .meta
         .current_revision()
         .ok_or_else(|| ReportError::Data("no revision".into()))?;
     let today = date_of(&rev.date)
         .ok_or_else(|| ReportError::Data(format!("`{}` is not a date", rev.date)))?;
-    let world = world::PackageWorld::new(source, files, Some(&project.root.join("package")), today)
-        .map_err(ReportError::Data)?;
-    let started = Instant::now();
-    let compiled = typst::compile::<PagedDocument>(&world);
-    let compile_time = started.elapsed();
-    let document = compiled
-        .output
-        .map_err(|errors| typst_error(&world, &errors, segments))?;
+    let package_dir = project.root.join("package");
+    let setting = compose::Setting {
+        files: world::shared_files(files).map_err(ReportError::Data)?,
+        package_dir: Some(&package_dir),
+        today,
+    };
+    let composed = compose::compose(
+        templates,
+        rendered,
+        &data.figures_per_item(),
+        &data.item_contents(),
+        &setting,
+    )?;
     let started = Instant::now();
     let timestamp = Datetime::from_ymd_hms(
         today.year().unwrap_or(2000),
@@ -206,12 +218,38 @@ pub fn typeset(
         timestamp,
         ..Default::default()
     };
-    let pdf = typst_pdf::pdf(&document, &options)
-        .map_err(|errors| typst_error(&world, &errors, segments))?;
-    Ok((pdf, document.pages().len(), compile_time, started.elapsed()))
+    let pdf = typst_pdf::pdf(&composed.document, &options).map_err(|errors| {
+        ReportError::Data(format!(
+            "the PDF could not be written: {}",
+            errors
+                .first()
+                .map(|e| e.message.to_string())
+                .unwrap_or_default()
+        ))
+    })?;
+    Ok(Typeset {
+        pdf,
+        pages: composed.document.pages().len(),
+        source: composed.standalone,
+        compiles: composed.compiles,
+        compile: composed.compile_time,
+        write: started.elapsed(),
+    })
 }
 
-fn typst_error(
+/// What [`typeset`] made.
+struct Typeset {
+    pdf: Vec<u8>,
+    pages: usize,
+    source: String,
+    compiles: usize,
+    compile: Duration,
+    write: Duration,
+}
+
+/// The Typst error of a part as a [`ReportError`] naming the template and
+/// its line.
+pub(crate) fn typst_error(
     world: &world::PackageWorld,
     errors: &[typst::diag::SourceDiagnostic],
     segments: &[templates::Segment],
@@ -271,12 +309,12 @@ pub fn make(
         data::build(project, outcome, registry, review).map_err(ReportError::Data)?;
     timings.data = started.elapsed();
     let started = Instant::now();
-    let (source, segments) = templates.render(&data).map_err(ReportError::Template)?;
+    let rendered = templates.render(&data).map_err(ReportError::Template)?;
     timings.templates = started.elapsed();
-    let (pdf, pages, compile, pdf_time) =
-        typeset(source.clone(), plots.clone(), project, &segments)?;
-    timings.compile = compile;
-    timings.pdf = pdf_time;
+    let typeset = typeset(&templates, &rendered, &data, plots.clone(), project)?;
+    timings.compile = typeset.compile;
+    timings.pdf = typeset.write;
+    timings.compiles = typeset.compiles;
     let rev = project
         .meta
         .current_revision()
@@ -284,9 +322,9 @@ pub fn make(
         .unwrap_or_default();
     Ok(Package {
         stem: format!("{}-{}", project.meta.document, rev),
-        source,
-        pdf,
-        pages,
+        source: typeset.source,
+        pdf: typeset.pdf,
+        pages: typeset.pages,
         timings,
         plots,
     })

@@ -21,6 +21,10 @@ pub const DEFAULTS: &[(&str, &str)] = &[
         "preamble",
         include_str!("../../../templates/preamble.typ.hbs"),
     ),
+    (
+        "page-furniture",
+        include_str!("../../../templates/page-furniture.typ.hbs"),
+    ),
     ("cover", include_str!("../../../templates/cover.typ.hbs")),
     (
         "revisions",
@@ -132,7 +136,7 @@ pub struct Segment {
     pub file: String,
     /// The item the section is for, if any.
     pub item: Option<String>,
-    /// First line of the segment in `main.typ` (1-based).
+    /// First line of the segment in its source (1-based).
     pub first_line: usize,
 }
 
@@ -235,35 +239,22 @@ impl Templates {
         })
     }
 
-    /// Renders the whole package source: the preamble, the front matter,
-    /// one section per item (the module's template, or the generic one),
-    /// and the references. Returns the source and where each part came from.
-    pub fn render(&self, data: &PackageData) -> Result<(String, Vec<Segment>), TemplateError> {
+    /// Renders every part of the package: the preamble and the page
+    /// furniture, the front matter, one section per item (the module's
+    /// template, or the generic one), and the references. The typesetter
+    /// puts the pieces together into the sources it compiles.
+    pub fn render(&self, data: &PackageData) -> Result<Rendered, TemplateError> {
         let json = serde_json::to_value(data).map_err(|e| TemplateError {
             file: "(package data)".into(),
             line: None,
             message: e.to_string(),
         })?;
-        let mut text = String::new();
-        let mut segments = Vec::new();
-        let mut push = |template: &str, item: Option<&str>, rendered: String, text: &mut String| {
-            segments.push(Segment {
-                template: template.to_string(),
-                file: self.files.get(template).cloned().unwrap_or_default(),
-                item: item.map(String::from),
-                first_line: text.lines().count() + 1,
-            });
-            text.push_str(&rendered);
-            if !rendered.ends_with('\n') {
-                text.push('\n');
-            }
-        };
-        for name in std::iter::once("preamble").chain(FRONT.iter().copied()) {
-            let rendered = self.render_one(name, &json)?;
-            push(name, None, rendered, &mut text);
-        }
-        let items = json["items"].as_array().cloned().unwrap_or_default();
-        for (item, (id, module)) in items.iter().zip(data.item_modules()) {
+        let preamble = self.piece("preamble", None, &json)?;
+        let furniture = self.piece("page-furniture", None, &json)?;
+        let front = self.render_front(&json)?;
+        let mut items = Vec::new();
+        let rows = json["items"].as_array().cloned().unwrap_or_default();
+        for (item, (id, module)) in rows.iter().zip(data.item_modules()) {
             let specific = format!("modules/{module}");
             let name = if self.files.contains_key(&specific) {
                 specific.as_str()
@@ -278,13 +269,94 @@ impl Templates {
                 "digest": json["digest"],
                 "item": item,
             });
-            let rendered = self.render_one(name, &ctx)?;
-            push(name, Some(id), rendered, &mut text);
+            items.push(self.piece(name, Some(id), &ctx)?);
         }
-        let rendered = self.render_one("references", &json)?;
-        push("references", None, rendered, &mut text);
-        Ok((text, segments))
+        let references = self.piece("references", None, &json)?;
+        Ok(Rendered {
+            json,
+            preamble,
+            furniture,
+            front,
+            items,
+            references,
+        })
     }
+
+    /// Renders the front matter (cover to general cautions) from the
+    /// package data, as it stands: the typesetter renders it again once the
+    /// contents' page numbers are known.
+    pub fn render_front(&self, json: &Json) -> Result<Vec<Piece>, TemplateError> {
+        FRONT
+            .iter()
+            .map(|name| self.piece(name, None, json))
+            .collect()
+    }
+
+    fn piece(&self, name: &str, item: Option<&str>, json: &Json) -> Result<Piece, TemplateError> {
+        let mut text = self.render_one(name, json)?;
+        if !text.ends_with('\n') {
+            text.push('\n');
+        }
+        Ok(Piece {
+            template: name.to_string(),
+            file: self.files.get(name).cloned().unwrap_or_default(),
+            item: item.map(String::from),
+            text,
+        })
+    }
+}
+
+/// A rendered template: Typst source and where it came from.
+#[derive(Debug, Clone)]
+pub struct Piece {
+    /// The template name.
+    pub template: String,
+    /// The template file (override path or `(built in)`).
+    pub file: String,
+    /// The item the section is for, if any.
+    pub item: Option<String>,
+    /// The Typst source, ending in a newline.
+    pub text: String,
+}
+
+/// Every rendered piece of a package, and the data they were rendered
+/// from (the front matter is rendered again from it).
+#[derive(Debug, Clone)]
+pub struct Rendered {
+    /// The package data as JSON.
+    pub json: Json,
+    /// Settings and definitions every source starts with.
+    pub preamble: Piece,
+    /// The header, footer and banner definitions.
+    pub furniture: Piece,
+    /// Cover to general cautions.
+    pub front: Vec<Piece>,
+    /// One section per item, in package order.
+    pub items: Vec<Piece>,
+    /// The list of references.
+    pub references: Piece,
+}
+
+/// Puts pieces one after another into a source, after `head` (lines of
+/// the typesetter's own), noting where each piece starts.
+pub fn assemble(head: &str, pieces: &[&Piece]) -> (String, Vec<Segment>) {
+    let mut text = String::from(head);
+    if !text.is_empty() && !text.ends_with('\n') {
+        text.push('\n');
+    }
+    let mut line = text.lines().count() + 1;
+    let mut segments = Vec::with_capacity(pieces.len());
+    for piece in pieces {
+        segments.push(Segment {
+            template: piece.template.clone(),
+            file: piece.file.clone(),
+            item: piece.item.clone(),
+            first_line: line,
+        });
+        line += piece.text.lines().count();
+        text.push_str(&piece.text);
+    }
+    (text, segments)
 }
 
 /// The marker that ends each generated line: the template and its line.

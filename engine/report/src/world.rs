@@ -40,11 +40,23 @@ pub fn file_id(path: &str) -> Result<FileId, String> {
     Ok(RootedPath::new(VirtualRoot::Project, vpath).intern())
 }
 
+/// In-memory files (plots) shared by the worlds of one package's parts.
+pub type SharedFiles = std::sync::Arc<HashMap<FileId, Bytes>>;
+
+/// Turns `(path, bytes)` pairs into files the worlds of a package share.
+pub fn shared_files(extra: Vec<(String, Vec<u8>)>) -> Result<SharedFiles, String> {
+    let mut files = HashMap::new();
+    for (path, bytes) in extra {
+        files.insert(file_id(&path)?, Bytes::new(bytes));
+    }
+    Ok(std::sync::Arc::new(files))
+}
+
 /// The sandbox.
 pub struct PackageWorld {
     main: FileId,
     sources: HashMap<FileId, Source>,
-    files: HashMap<FileId, Bytes>,
+    files: SharedFiles,
     /// The project's `package/` folder, for images a template names.
     package_dir: Option<PathBuf>,
     today: Datetime,
@@ -59,13 +71,23 @@ impl PackageWorld {
         package_dir: Option<&Path>,
         today: Datetime,
     ) -> Result<PackageWorld, String> {
-        let main = file_id("main.typ")?;
+        PackageWorld::part("main.typ", text, shared_files(extra)?, package_dir, today)
+    }
+
+    /// A world for one part of a package: its own main source at
+    /// `main_path` (each part gets a path of its own, so the positions
+    /// Typst gives elements never coincide between parts), sharing the
+    /// package's in-memory files.
+    pub fn part(
+        main_path: &str,
+        text: String,
+        files: SharedFiles,
+        package_dir: Option<&Path>,
+        today: Datetime,
+    ) -> Result<PackageWorld, String> {
+        let main = file_id(main_path)?;
         let mut sources = HashMap::new();
         sources.insert(main, Source::new(main, text));
-        let mut files = HashMap::new();
-        for (path, bytes) in extra {
-            files.insert(file_id(&path)?, Bytes::new(bytes));
-        }
         Ok(PackageWorld {
             main,
             sources,
