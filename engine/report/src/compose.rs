@@ -47,6 +47,9 @@ use crate::ReportError;
 /// reader shows a link's address as its alternative text.
 pub const XREF_SCHEME: &str = "go to ";
 
+/// Every part leaves header, footer and banner to the furniture layer.
+const NO_FURNITURE: &str = "#set page(header: none, footer: none, foreground: none)\n";
+
 /// The most times the front matter is typeset while its page count
 /// settles (it settles on the second in practice).
 const FRONT_PASSES: usize = 4;
@@ -204,7 +207,7 @@ pub fn compose(
 ) -> Result<Composed, ReportError> {
     let started = Instant::now();
     let mut compiles = 0;
-    let page_setting = glue("#set page(header: none, footer: none, foreground: none)\n".into());
+    let page_setting = glue(NO_FURNITURE.into());
 
     // The item sections, each its own document, counting on from the
     // sections and figures before it.
@@ -212,7 +215,7 @@ pub fn compose(
     let mut item_sources = Vec::with_capacity(rendered.items.len());
     for (index, piece) in rendered.items.iter().enumerate() {
         let counters = glue(format!(
-            "#set page(header: none, footer: none, foreground: none)\n#counter(heading).update({index})\n#counter(figure.where(kind: image)).update({figures_before})\n"
+            "{NO_FURNITURE}#counter(heading).update({index})\n#counter(figure.where(kind: image)).update({figures_before})\n"
         ));
         figures_before += figures_per_item.get(index).copied().unwrap_or(0);
         let what = format!("section {} of the package", index + 1);
