@@ -214,3 +214,94 @@ fn parts_are_put_together_with_true_pages_and_links() {
         "{line}: the section starts on page {start}"
     );
 }
+
+/// The first words of a text, whitespace folded, for finding it in the
+/// extracted text of a page whatever the line breaks.
+fn opening_words(text: &str, count: usize) -> String {
+    text.split_whitespace()
+        .take(count)
+        .collect::<Vec<_>>()
+        .join(" ")
+}
+
+/// Each module's method, inputs in words, assumptions, cautions and
+/// references are said once, in a method statement: the contents names the
+/// page it starts on, its cautions are on its pages, and every item
+/// section points to it. A project can repeat them in every item section
+/// with `{{> item-notes}}` in its own `item.typ.hbs`.
+#[test]
+fn method_statements_are_said_once_and_every_item_points_to_its_own() {
+    let demo = demo_copy();
+    let ran = packwright(demo.path(), &["build", "."]);
+    assert_eq!(ran.code, 0, "{}", ran.all());
+    let pdf = demo.path().join("package/HCT-MH-CALC-0042-B.pdf");
+    let texts: Vec<String> = pdf_extract::extract_text_by_pages(&pdf)
+        .expect("the PDF's text extracts")
+        .iter()
+        .map(|t| t.split_whitespace().collect::<Vec<_>>().join(" "))
+        .collect();
+    let contents = &texts[2];
+    let registry = packwright::builtin::registry();
+    for module in [
+        "belt-pickup",
+        "chute-discharge",
+        "hopper-outlet",
+        "chain-payout",
+        "hoist-loads",
+    ] {
+        let declaration = &registry.get(module).expect("a built-in module").declaration;
+        let title = format!("Method statement: {module} {}", declaration.version);
+        let after = contents
+            .split(&title)
+            .nth(1)
+            .unwrap_or_else(|| panic!("{title} is in the contents: {contents}"));
+        let page: usize = after
+            .split_whitespace()
+            .filter(|w| !w.chars().all(|c| c == '.'))
+            .find_map(|w| w.trim_matches('.').parse().ok())
+            .expect("a page number");
+        let start = &texts[page - 1];
+        assert!(
+            start.contains(&title) && start.contains("Used by"),
+            "{title} starts on page {page}: {start}"
+        );
+        // Its cautions are on its own pages (before the next statement).
+        let statement: String = texts[page - 1..(page + 3).min(texts.len())].join(" ");
+        for caution in &declaration.cautions {
+            let words = opening_words(caution, 6);
+            assert!(
+                statement.contains(&words),
+                "{title} carries the caution `{words}`"
+            );
+        }
+        // Said once: no other page starts a statement for the module.
+        let starts = texts
+            .iter()
+            .filter(|t| t.contains(&title) && t.contains("Used by"))
+            .count();
+        assert_eq!(starts, 1, "{title} is said once");
+    }
+    let whole = texts.join(" ");
+    let pointers = whole.matches("by the method of Method statement:").count();
+    assert!(
+        pointers >= 15,
+        "every item points to its method ({pointers})"
+    );
+
+    // Repeated in every item section on request.
+    let templates = demo.path().join("templates");
+    std::fs::create_dir_all(&templates).expect("mkdir");
+    std::fs::write(
+        templates.join("item.typ.hbs"),
+        "{{> item-heading}}\n{{> item-inputs}}\n{{> item-method}}\n{{> item-results}}\n{{> item-checks}}\n{{> item-notes}}\n",
+    )
+    .expect("write");
+    let ran = packwright(demo.path(), &["build", "."]);
+    assert_eq!(ran.code, 0, "{}", ran.all());
+    let text = pdf_text(&pdf);
+    assert_eq!(
+        text.matches("Method in full").count(),
+        pointers,
+        "every item section carries its method in full"
+    );
+}

@@ -18,6 +18,10 @@ use std::time::Instant;
 
 use packwright_core::RunOptions;
 
+/// The allocator the `packwright` binary uses, so the figures are its own.
+#[global_allocator]
+static ALLOCATOR: mimalloc::MiMalloc = mimalloc::MiMalloc;
+
 /// The peak resident set size of this process so far, in MiB (Linux).
 fn peak_mib() -> f64 {
     std::fs::read_to_string("/proc/self/status")
@@ -104,6 +108,7 @@ fn seconds(start: Instant) -> f64 {
 }
 
 fn main() {
+    packwright::allocator::return_memory_promptly();
     let mut args = std::env::args().skip(1);
     let run_items: usize = args.next().and_then(|a| a.parse().ok()).unwrap_or(1000);
     let build_items: usize = args.next().and_then(|a| a.parse().ok()).unwrap_or(100);

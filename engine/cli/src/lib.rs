@@ -2,4 +2,5 @@
 //! modules, so that benchmarks and tests assemble the same registry as the
 //! binary. The binary itself is `main.rs`.
 
+pub mod allocator;
 pub mod builtin;

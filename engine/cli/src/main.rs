@@ -15,6 +15,12 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+/// Typst's layout allocates and frees small objects by the million; the
+/// system allocator spent about a fifth of a package build in `malloc`
+/// and `free` (perf, DEVELOPERS.md "Performance").
+#[global_allocator]
+static ALLOCATOR: mimalloc::MiMalloc = mimalloc::MiMalloc;
+
 /// Calculation packages for belt conveyor transfers, chain payout and hoists:
 /// a project of YAML files in, units-checked results and a typeset PDF out.
 #[derive(Parser, Debug)]
@@ -118,6 +124,7 @@ pub(crate) enum Command {
 }
 
 fn main() -> ExitCode {
+    packwright::allocator::return_memory_promptly();
     let cli = match Cli::try_parse() {
         Ok(cli) => cli,
         Err(e) => {

@@ -178,8 +178,358 @@ fn label_position(document: &PagedDocument, label: &str) -> Option<PagedPosition
     introspector.position(content.location()?)
 }
 
-/// The front sections the default templates make, as the first guess of
-/// the contents (a wrong guess costs one more pass of the front matter).
+/// How many item sections go into one part. Parts of 1, 4, 10 and 25
+/// sections took the same processor time on the 100-item bench (Typst's
+/// fixed cost per part is small), and the peak memory grew with the size
+/// of a part (2026-12-02: 337, 355, 402 and 510 MiB), so one.
+const ITEMS_PER_PART: usize = 1;
+
+/// The number of the front-matter templates that come before the
+/// contents (cover, revision history, sign-off): they are one part, the
+/// contents another, and the rest of the front matter a third, so that
+/// only the contents is typeset again once the page numbers are known.
+const BEFORE_CONTENTS: usize = 3;
+
+/// Contents lines with every page number replaced by a number of as many
+/// digits as `total` has, so that the first layout of the contents has
+/// the length the real numbers will give it.
+fn placeholder_rows(rows: &[ContentsRow], total: usize) -> Vec<ContentsRow> {
+    let wide = 10usize.pow(total.max(1).to_string().len() as u32) - 1;
+    rows.iter()
+        .map(|row| ContentsRow {
+            page: wide,
+            ..row.clone()
+        })
+        .collect()
+}
+
+/// Typesets the rendered package.
+pub fn compose(
+    templates: &Templates,
+    rendered: &Rendered,
+    figures_per_item: &[usize],
+    item_rows: &[ContentsRow],
+    method_rows: &[ContentsRow],
+    setting: &Setting,
+) -> Result<Composed, ReportError> {
+    let started = Instant::now();
+    let page_setting = glue(NO_FURNITURE.into());
+    let front = templates
+        .render_front(&rendered.json)
+        .map_err(ReportError::Template)?;
+    let split = BEFORE_CONTENTS.min(front.len());
+    let (opening, rest) = front.split_at(split);
+    let (contents_piece, closing) = rest
+        .split_first()
+        .ok_or_else(|| ReportError::Data("the front matter has no contents template".into()))?;
+
+    // The sources of the first round: the opening pages, the contents with
+    // placeholder numbers, the rest of the front matter, the method
+    // statements, the item sections a few to a part, and the references.
+    fn with_page_setting<'p>(
+        preamble: &'p Piece,
+        page_setting: &'p Piece,
+        extra: &[&'p Piece],
+    ) -> Vec<&'p Piece> {
+        let mut pieces = vec![preamble, page_setting];
+        pieces.extend_from_slice(extra);
+        pieces
+    }
+    let (preamble, paged) = (&rendered.preamble, &page_setting);
+    let opening_source = part_source(
+        "front-opening.typ".into(),
+        "front matter before the contents",
+        &with_page_setting(preamble, paged, &opening.iter().collect::<Vec<_>>()),
+    );
+    let closing_source = part_source(
+        "front-closing.typ".into(),
+        "front matter after the contents",
+        &with_page_setting(preamble, paged, &closing.iter().collect::<Vec<_>>()),
+    );
+    let method_sources: Vec<PartSource> = rendered
+        .methods
+        .iter()
+        .enumerate()
+        .map(|(index, piece)| {
+            part_source(
+                format!("method-{:03}.typ", index + 1),
+                "a method statement",
+                &with_page_setting(preamble, paged, &[piece]),
+            )
+        })
+        .collect();
+    let mut item_sources = Vec::new();
+    let mut figures_before = 0;
+    for (group, pieces) in rendered.items.chunks(ITEMS_PER_PART).enumerate() {
+        let first = group * ITEMS_PER_PART;
+        let counters = glue(format!(
+            "{NO_FURNITURE}#counter(heading).update({first})\n#counter(figure.where(kind: image)).update({figures_before})\n"
+        ));
+        figures_before += figures_per_item[first.min(figures_per_item.len())..]
+            .iter()
+            .take(pieces.len())
+            .sum::<usize>();
+        let mut all = vec![&rendered.preamble, &counters];
+        all.extend(pieces.iter());
+        item_sources.push(part_source(
+            format!("sections-{:04}.typ", first + 1),
+            &format!(
+                "sections {} to {} of the package",
+                first + 1,
+                first + pieces.len()
+            ),
+            &all,
+        ));
+    }
+    let references_source = part_source(
+        "references.typ".into(),
+        "references",
+        &with_page_setting(preamble, paged, &[&rendered.references]),
+    );
+
+    // The contents lines in package order, pages not yet known.
+    let contents_source = |rows: &[ContentsRow], pass: usize| -> Result<PartSource, ReportError> {
+        let mut json = rendered.json.clone();
+        json["contents"] = serde_json::to_value(rows).unwrap_or_default();
+        let piece = templates
+            .render_piece(&contents_piece.template, &json)
+            .map_err(ReportError::Template)?;
+        Ok(part_source(
+            format!("contents-{pass}.typ"),
+            "the contents",
+            &with_page_setting(preamble, paged, &[&piece]),
+        ))
+    };
+    let guessed = {
+        let mut rows = guessed_front(&rendered.json);
+        rows.extend(method_rows.iter().cloned());
+        rows.extend(item_rows.iter().cloned());
+        rows.push(ContentsRow {
+            number: String::new(),
+            title: "References".into(),
+            page: 0,
+            target: "page:1".into(),
+        });
+        // Pages run into the hundreds for a large package: three digits
+        // unless the items alone make more.
+        placeholder_rows(&rows, (item_rows.len() * 4).max(100))
+    };
+    let first_contents = contents_source(&guessed, 1)?;
+
+    let mut round: Vec<&PartSource> = vec![&opening_source, &first_contents, &closing_source];
+    round.extend(method_sources.iter());
+    round.extend(item_sources.iter());
+    round.push(&references_source);
+    let mut laid: Vec<PagedDocument> = round
+        .par_iter()
+        .with_max_len(1)
+        .map(|part| compile(part, setting))
+        .collect::<Result<Vec<_>, _>>()?;
+    let mut compiles = laid.len();
+    let references = laid.pop().expect("the references part");
+    let mut rest = laid.into_iter();
+    let opening_doc = rest.next().expect("the opening part");
+    let mut contents_doc = rest.next().expect("the contents part");
+    let closing_doc = rest.next().expect("the closing part");
+    let method_docs: Vec<PagedDocument> = rest.by_ref().take(method_sources.len()).collect();
+    let item_docs: Vec<PagedDocument> = rest.collect();
+
+    // Where every labelled section starts, counted from the first page
+    // after the contents; the contents lines follow from it.
+    let mut sections_after: Vec<(ContentsRow, PagedPosition)> = Vec::new();
+    let mut offset = closing_doc.pages().len();
+    let mut targets_after: HashMap<String, PagedPosition> = HashMap::new();
+    let locate = |document: &PagedDocument,
+                  rows: &[ContentsRow],
+                  offset: usize,
+                  out: &mut Vec<(ContentsRow, PagedPosition)>| {
+        for row in rows {
+            let label = row.target.trim_start_matches("label:");
+            if let Some(position) = label_position(document, label) {
+                out.push((
+                    row.clone(),
+                    PagedPosition {
+                        page: position.page.saturating_add(offset),
+                        point: position.point,
+                    },
+                ));
+            }
+        }
+    };
+    for (document, row) in method_docs.iter().zip(method_rows) {
+        locate(
+            document,
+            std::slice::from_ref(row),
+            offset,
+            &mut sections_after,
+        );
+        offset += document.pages().len();
+    }
+    for (document, rows) in item_docs.iter().zip(item_rows.chunks(ITEMS_PER_PART)) {
+        locate(document, rows, offset, &mut sections_after);
+        offset += document.pages().len();
+    }
+    let references_start = offset;
+    let after_pages = offset + references.pages().len();
+    for (row, position) in &sections_after {
+        targets_after.insert(row.target.clone(), *position);
+    }
+    let opening_rows = front_sections(&opening_doc);
+    let closing_rows = front_sections(&closing_doc);
+    let references_rows = front_sections(&references);
+
+    // The contents with the real page numbers, the furniture of every page
+    // beside it (assuming the contents keeps its length, which the
+    // placeholder numbers make likely; checked below).
+    let rows_for = |contents_pages: usize| -> Vec<ContentsRow> {
+        let before = opening_doc.pages().len() + contents_pages;
+        let mut rows = opening_rows.clone();
+        let shift = |row: &ContentsRow, page: usize| ContentsRow {
+            page,
+            target: if row.target.starts_with("page:") {
+                format!("page:{page}")
+            } else {
+                row.target.clone()
+            },
+            ..row.clone()
+        };
+        for row in &closing_rows {
+            rows.push(shift(row, before + row.page));
+        }
+        for (row, position) in &sections_after {
+            rows.push(ContentsRow {
+                page: before + position.page.get(),
+                ..row.clone()
+            });
+        }
+        for row in &references_rows {
+            rows.push(shift(row, before + references_start + row.page));
+        }
+        rows
+    };
+    let mut contents_pages = contents_doc.pages().len();
+    let mut pass = 2;
+    let furniture = loop {
+        let total = opening_doc.pages().len() + contents_pages + after_pages;
+        let contents_now = contents_source(&rows_for(contents_pages), pass)?;
+        let furniture_sources = furniture_sources(rendered, total);
+        let mut round: Vec<&PartSource> = vec![&contents_now];
+        round.extend(furniture_sources.iter());
+        let mut laid = round
+            .par_iter()
+            .with_max_len(1)
+            .map(|part| compile(part, setting))
+            .collect::<Result<Vec<_>, _>>()?;
+        compiles += laid.len();
+        let furniture: Vec<PagedDocument> = laid.split_off(1);
+        contents_doc = laid.pop().expect("the contents");
+        if contents_doc.pages().len() == contents_pages || pass > FRONT_PASSES {
+            break furniture;
+        }
+        contents_pages = contents_doc.pages().len();
+        pass += 1;
+    };
+    let rows = rows_for(contents_pages);
+
+    // Every page, in order.
+    let before = opening_doc.pages().len() + contents_doc.pages().len();
+    let mut pages: Vec<Page> = Vec::new();
+    for document in [&opening_doc, &contents_doc, &closing_doc]
+        .into_iter()
+        .chain(method_docs.iter())
+        .chain(item_docs.iter())
+        .chain(std::iter::once(&references))
+    {
+        pages.extend(document.pages().iter().cloned());
+    }
+    let total = pages.len();
+    let targets: HashMap<String, PagedPosition> = targets_after
+        .into_iter()
+        .map(|(target, position)| {
+            (
+                target,
+                PagedPosition {
+                    page: position.page.saturating_add(before),
+                    point: position.point,
+                },
+            )
+        })
+        .collect();
+
+    let layers: Vec<&Page> = furniture.iter().flat_map(|d| d.pages()).collect();
+    if layers.len() != total {
+        return Err(ReportError::Data(format!(
+            "the page furniture has {} pages for a package of {total}; the `page-furniture` template must not add pages",
+            layers.len()
+        )));
+    }
+    let mut unknown = Vec::new();
+    for (number, (page, layer)) in pages.iter_mut().zip(layers).enumerate() {
+        let mut over = layer.frame.clone();
+        strip_tags(&mut over);
+        page.frame.push_frame(Point::zero(), over);
+        page.number = number as u64 + 1;
+        point_links(&mut page.frame, &targets, total, &mut unknown);
+    }
+    if let Some(target) = unknown.first() {
+        return Err(ReportError::Data(format!(
+            "a link in the package points at `{target}`, which is not in it"
+        )));
+    }
+    let info = opening_doc.info().clone();
+    let document = PagedDocument::new(pages.into_iter().collect(), info);
+
+    // The standalone source: the same pieces, one document.
+    let final_front = {
+        let mut json = rendered.json.clone();
+        json["contents"] = serde_json::to_value(&rows).unwrap_or_default();
+        templates
+            .render_front(&json)
+            .map_err(ReportError::Template)?
+    };
+    let standalone_pages = glue(
+        "#set page(\n  header: context page-header(here().page()),\n  footer: context page-footer(here().page(), counter(page).final().first()),\n  foreground: context page-foreground(here().page()),\n)\n"
+            .into(),
+    );
+    let mut pieces = vec![&rendered.preamble, &rendered.furniture, &standalone_pages];
+    pieces.extend(final_front.iter());
+    pieces.extend(rendered.methods.iter());
+    pieces.extend(rendered.items.iter());
+    pieces.push(&rendered.references);
+    let (standalone, _) = assemble(STANDALONE_HEAD, &pieces);
+
+    Ok(Composed {
+        document,
+        standalone,
+        compiles,
+        compile_time: started.elapsed(),
+    })
+}
+
+/// The page furniture of a package of `total` pages, as one source per
+/// core: each typesets the header, footer and banner of its run of pages
+/// on empty pages, to be laid over the body.
+fn furniture_sources(rendered: &Rendered, total: usize) -> Vec<PartSource> {
+    let chunks = rayon::current_num_threads().clamp(1, 8);
+    let per = total.div_ceil(chunks).max(1);
+    (0..total.div_ceil(per))
+        .map(|k| {
+            let (first, last) = (k * per + 1, ((k + 1) * per).min(total));
+            let pages = glue(format!(
+                "#for n in range({first}, {last} + 1) {{\n  page(header: page-header(n), footer: page-footer(n, {total}), foreground: page-foreground(n))[]\n}}\n"
+            ));
+            part_source(
+                format!("furniture-{k}.typ"),
+                "page furniture",
+                &[&rendered.preamble, &rendered.furniture, &pages],
+            )
+        })
+        .collect()
+}
+
+/// The front sections the default templates make before the items, as
+/// they stand in the contents before the first layout (their pages are
+/// read from the layout).
 fn guessed_front(json: &serde_json::Value) -> Vec<ContentsRow> {
     let mut titles = vec!["Revision history".to_string(), "Summary of results".into()];
     if let Some(rev) = json["review"]["changes_since"].as_str() {
@@ -195,215 +545,6 @@ fn guessed_front(json: &serde_json::Value) -> Vec<ContentsRow> {
             target: "page:1".into(),
         })
         .collect()
-}
-
-/// Typesets the rendered package.
-pub fn compose(
-    templates: &Templates,
-    rendered: &Rendered,
-    figures_per_item: &[usize],
-    item_rows: &[ContentsRow],
-    setting: &Setting,
-) -> Result<Composed, ReportError> {
-    let started = Instant::now();
-    let mut compiles = 0;
-    let page_setting = glue(NO_FURNITURE.into());
-
-    // The item sections, each its own document, counting on from the
-    // sections and figures before it.
-    let mut figures_before = 0;
-    let mut item_sources = Vec::with_capacity(rendered.items.len());
-    for (index, piece) in rendered.items.iter().enumerate() {
-        let counters = glue(format!(
-            "{NO_FURNITURE}#counter(heading).update({index})\n#counter(figure.where(kind: image)).update({figures_before})\n"
-        ));
-        figures_before += figures_per_item.get(index).copied().unwrap_or(0);
-        let what = format!("section {} of the package", index + 1);
-        item_sources.push(part_source(
-            format!("section-{:04}.typ", index + 1),
-            &what,
-            &[&rendered.preamble, &counters, piece],
-        ));
-    }
-    let references_source = part_source(
-        "references.typ".into(),
-        "references",
-        &[&rendered.preamble, &page_setting, &rendered.references],
-    );
-
-    let front_source = |json: &serde_json::Value, pass: usize| -> Result<PartSource, ReportError> {
-        let front = templates
-            .render_front(json)
-            .map_err(ReportError::Template)?;
-        let mut pieces = vec![&rendered.preamble, &page_setting];
-        pieces.extend(front.iter());
-        let (text, segments) = assemble(&part_head("front matter"), &pieces);
-        Ok(PartSource {
-            path: format!("front-{pass}.typ"),
-            text,
-            segments,
-        })
-    };
-    let with_contents = |rows: Vec<ContentsRow>| {
-        let mut json = rendered.json.clone();
-        json["contents"] = serde_json::to_value(rows).unwrap_or_default();
-        json
-    };
-
-    // First pass of the front matter (page numbers not yet known) beside
-    // the sections and the references.
-    let mut used = guessed_front(&rendered.json);
-    used.extend(item_rows.iter().cloned());
-    used.push(ContentsRow {
-        number: String::new(),
-        title: "References".into(),
-        page: 0,
-        target: "page:1".into(),
-    });
-    let first_front = front_source(&with_contents(used.clone()), 1)?;
-    let mut all_sources: Vec<&PartSource> = vec![&first_front];
-    all_sources.extend(item_sources.iter());
-    all_sources.push(&references_source);
-    let mut documents = all_sources
-        .par_iter()
-        .map(|part| compile(part, setting))
-        .collect::<Result<Vec<_>, _>>()?;
-    compiles += documents.len();
-    let references = documents.pop().expect("the references part");
-    let mut front = documents.remove(0);
-    let sections = documents;
-    let body_pages: Vec<usize> = sections.iter().map(|d| d.pages().len()).collect();
-
-    // The front matter again with the contents its last layout implies,
-    // until the contents it was typeset with are the ones it implies.
-    for pass in 2..=FRONT_PASSES {
-        let wanted = contents_of(&front, item_rows, &body_pages, &references);
-        if wanted == used {
-            break;
-        }
-        front = compile(
-            &front_source(&with_contents(wanted.clone()), pass)?,
-            setting,
-        )?;
-        compiles += 1;
-        used = wanted;
-    }
-
-    // Every page, in order; where each part starts.
-    let mut pages: Vec<Page> = Vec::new();
-    let mut starts = Vec::new();
-    for document in std::iter::once(&front)
-        .chain(sections.iter())
-        .chain(std::iter::once(&references))
-    {
-        starts.push(pages.len());
-        pages.extend(document.pages().iter().cloned());
-    }
-    let total = pages.len();
-
-    // Where each cross-reference target is in the whole document.
-    let mut targets: HashMap<String, PagedPosition> = HashMap::new();
-    for ((row, document), start) in item_rows.iter().zip(&sections).zip(&starts[1..]) {
-        let label = row.target.trim_start_matches("label:");
-        let position = label_position(document, label).unwrap_or(PagedPosition {
-            page: NonZeroUsize::MIN,
-            point: Point::zero(),
-        });
-        targets.insert(
-            row.target.clone(),
-            PagedPosition {
-                page: position.page.saturating_add(*start),
-                point: position.point,
-            },
-        );
-    }
-
-    // The furniture of every page, typeset as a document of its own.
-    let furniture_text = format!(
-        "#for n in range(1, {total} + 1) {{\n  page(header: page-header(n), footer: page-footer(n, {total}), foreground: page-foreground(n))[]\n}}\n"
-    );
-    let furniture_source = part_source(
-        "furniture.typ".into(),
-        "page furniture",
-        &[
-            &rendered.preamble,
-            &rendered.furniture,
-            &glue(furniture_text),
-        ],
-    );
-    let furniture = compile(&furniture_source, setting)?;
-    compiles += 1;
-    if furniture.pages().len() != total {
-        return Err(ReportError::Data(format!(
-            "the page furniture has {} pages for a package of {total}; the `page-furniture` template must not add pages",
-            furniture.pages().len()
-        )));
-    }
-
-    let mut unknown = Vec::new();
-    for (number, (page, layer)) in pages.iter_mut().zip(furniture.pages()).enumerate() {
-        let mut over = layer.frame.clone();
-        strip_tags(&mut over);
-        page.frame.push_frame(Point::zero(), over);
-        page.number = number as u64 + 1;
-        point_links(&mut page.frame, &targets, total, &mut unknown);
-    }
-    if let Some(target) = unknown.first() {
-        return Err(ReportError::Data(format!(
-            "a link in the package points at `{target}`, which is not in it"
-        )));
-    }
-    let info = front.info().clone();
-    let document = PagedDocument::new(pages.into_iter().collect(), info);
-
-    // The standalone source: the same pieces, one document.
-    let final_front = templates
-        .render_front(&with_contents(used))
-        .map_err(ReportError::Template)?;
-    let standalone_pages = glue(
-        "#set page(\n  header: context page-header(here().page()),\n  footer: context page-footer(here().page(), counter(page).final().first()),\n  foreground: context page-foreground(here().page()),\n)\n"
-            .into(),
-    );
-    let mut pieces = vec![&rendered.preamble, &rendered.furniture, &standalone_pages];
-    pieces.extend(final_front.iter());
-    pieces.extend(rendered.items.iter());
-    pieces.push(&rendered.references);
-    let (standalone, _) = assemble(STANDALONE_HEAD, &pieces);
-
-    Ok(Composed {
-        document,
-        standalone,
-        compiles,
-        compile_time: started.elapsed(),
-    })
-}
-
-/// The contents a front matter laid out as `front` implies: its own
-/// sections, then the items and the references on the pages they follow it.
-fn contents_of(
-    front: &PagedDocument,
-    item_rows: &[ContentsRow],
-    body_pages: &[usize],
-    references: &PagedDocument,
-) -> Vec<ContentsRow> {
-    let mut rows = front_sections(front);
-    let mut page = front.pages().len() + 1;
-    for (row, pages) in item_rows.iter().zip(body_pages) {
-        rows.push(ContentsRow {
-            page,
-            ..row.clone()
-        });
-        page += pages;
-    }
-    for row in front_sections(references) {
-        let at = page + row.page - 1;
-        rows.push(ContentsRow {
-            page: at,
-            target: format!("page:{at}"),
-            ..row
-        });
-    }
-    rows
 }
 
 /// Removes introspection tags from the furniture layer: it is drawn over

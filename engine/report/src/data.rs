@@ -127,10 +127,46 @@ struct MethodRow {
     equation: Option<String>,
 }
 
+/// One line of a method statement's list of inputs, outputs, criteria or
+/// checks: a name, what it means and what it takes or gives.
+#[derive(Serialize)]
+struct TermRow {
+    name: String,
+    meaning: String,
+    /// Unit, default or other short facts; may be empty.
+    takes: String,
+}
+
+/// What a module does, said once in the package for every item it
+/// computes: its method and equations, its inputs and outputs in words,
+/// its acceptance criteria, assumptions, cautions and references.
+#[derive(Serialize)]
+struct MethodStatement {
+    module: String,
+    version: String,
+    origin: String,
+    purpose: String,
+    label: String,
+    title: String,
+    /// The ids of the items computed with it, in package order.
+    items: Vec<String>,
+    method: Vec<MethodRow>,
+    inputs: Vec<TermRow>,
+    outputs: Vec<TermRow>,
+    criteria: Vec<TermRow>,
+    checks: Vec<TermRow>,
+    assumptions: Vec<String>,
+    cautions: Vec<String>,
+    references: Vec<String>,
+}
+
 #[derive(Serialize)]
 struct ItemData {
     /// The item's section number (1 for the first item).
     number: usize,
+    /// The label and title of its module's method statement.
+    method_label: String,
+    method_title: String,
     id: String,
     label: String,
     title: String,
@@ -203,6 +239,8 @@ pub struct PackageData {
     check_count: usize,
     failed_count: usize,
     items: Vec<ItemData>,
+    /// One method statement per module used, by module name.
+    methods: Vec<MethodStatement>,
     references: Vec<String>,
     /// Filled in by the typesetter once the sections' pages are known.
     contents: Vec<ContentsRow>,
@@ -215,6 +253,20 @@ impl PackageData {
     /// Item ids with their module names, in package order.
     pub fn item_modules(&self) -> &[(String, String)] {
         &self.item_module
+    }
+
+    /// The contents lines of the method statements, their pages not yet
+    /// known.
+    pub fn method_contents(&self) -> Vec<ContentsRow> {
+        self.methods
+            .iter()
+            .map(|m| ContentsRow {
+                number: String::new(),
+                title: m.title.clone(),
+                page: 0,
+                target: format!("label:{}", m.label),
+            })
+            .collect()
     }
 
     /// The number of figures (plots) of each item, in package order.
@@ -271,6 +323,104 @@ pub fn package_digest(outcome: &RunOutcome) -> String {
         .collect()
 }
 
+/// A Typst label name for a module's method statement.
+pub fn method_label_of(module: &str) -> String {
+    format!("method-{module}")
+}
+
+/// The title of a module's method statement.
+fn method_title_of(decl: &packwright_api::ModuleDeclaration) -> String {
+    format!("Method statement: {} {}", decl.name, decl.version)
+}
+
+/// A module's method statement, from its declaration.
+fn method_statement(
+    reg: &packwright_core::registry::Registered,
+    system: UnitSystem,
+) -> MethodStatement {
+    let decl = &reg.declaration;
+    let unit_of = |spec: &packwright_api::OutputSpec| {
+        display::pretty_unit(display::output_unit(spec, system))
+    };
+    MethodStatement {
+        module: decl.name.clone(),
+        version: decl.version.clone(),
+        origin: origin_words(reg),
+        purpose: decl.purpose.clone(),
+        label: method_label_of(&decl.name),
+        title: method_title_of(decl),
+        items: Vec::new(),
+        method: decl
+            .method
+            .iter()
+            .map(|m| MethodRow {
+                text: m.text.clone(),
+                equation: m.equation.clone(),
+            })
+            .collect(),
+        inputs: decl
+            .inputs
+            .iter()
+            .map(|i| TermRow {
+                name: i.name.clone(),
+                meaning: i.meaning.clone(),
+                takes: match &i.need {
+                    packwright_api::Need::Required => "required".into(),
+                    packwright_api::Need::Optional => "optional".into(),
+                    packwright_api::Need::Default(d) => format!("default {d}"),
+                },
+            })
+            .collect(),
+        outputs: decl
+            .outputs
+            .iter()
+            .map(|o| TermRow {
+                name: o.name.clone(),
+                meaning: o.meaning.clone(),
+                takes: unit_of(o),
+            })
+            .collect(),
+        criteria: decl
+            .criteria
+            .iter()
+            .map(|c| TermRow {
+                name: c.name.clone(),
+                meaning: c.meaning.clone(),
+                takes: c
+                    .default
+                    .as_ref()
+                    .map(|d| format!("default {d} ({})", c.basis))
+                    .unwrap_or_else(|| c.basis.clone()),
+            })
+            .collect(),
+        checks: decl
+            .checks
+            .iter()
+            .map(|c| TermRow {
+                name: c.name.clone(),
+                meaning: c.meaning.clone(),
+                takes: String::new(),
+            })
+            .collect(),
+        assumptions: decl.assumptions.clone(),
+        cautions: decl.cautions.clone(),
+        references: decl.references.clone(),
+    }
+}
+
+/// Where a module comes from, in words.
+fn origin_words(reg: &packwright_core::registry::Registered) -> String {
+    match (&reg.origin, &reg.fingerprint) {
+        (packwright_core::ModuleOrigin::BuiltIn, _) => "built into packwright".into(),
+        (packwright_core::ModuleOrigin::External(path), Some(fp)) => {
+            format!("external module {path}, {fp}")
+        }
+        (packwright_core::ModuleOrigin::External(path), None) => {
+            format!("external module {path}")
+        }
+    }
+}
+
 /// A Typst label name for an item.
 pub fn label_of(id: &str) -> String {
     format!("item-{id}")
@@ -314,11 +464,17 @@ pub fn build(
     let mut all_refs = BTreeSet::new();
     let (mut check_count, mut failed_count) = (0, 0);
     let mut item_module = Vec::new();
+    let mut methods: std::collections::BTreeMap<String, MethodStatement> = Default::default();
     for run in outcome.items.values() {
         let reg = registry
             .get(&run.item.module)
             .ok_or("item module vanished")?;
         let decl = &reg.declaration;
+        methods
+            .entry(decl.name.clone())
+            .or_insert_with(|| method_statement(reg, system))
+            .items
+            .push(run.item.id.clone());
         let mut inputs = Vec::new();
         for spec in &decl.inputs {
             let Some(input) = run.inputs.values.get(&spec.name) else {
@@ -477,20 +633,14 @@ pub fn build(
         item_module.push((run.item.id.clone(), decl.name.clone()));
         items.push(ItemData {
             number: items.len() + 1,
+            method_label: method_label_of(&decl.name),
+            method_title: method_title_of(decl),
             id: run.item.id.clone(),
             label: label_of(&run.item.id),
             title: run.item.title.clone(),
             module: decl.name.clone(),
             module_version: decl.version.clone(),
-            module_origin: match (&reg.origin, &reg.fingerprint) {
-                (packwright_core::ModuleOrigin::BuiltIn, _) => "built into packwright".into(),
-                (packwright_core::ModuleOrigin::External(path), Some(fp)) => {
-                    format!("external module {path}, {fp}")
-                }
-                (packwright_core::ModuleOrigin::External(path), None) => {
-                    format!("external module {path}")
-                }
-            },
+            module_origin: origin_words(reg),
             purpose: decl.purpose.clone(),
             file: run.item.file.to_string(),
             notes: run.item.notes.clone(),
@@ -536,6 +686,7 @@ pub fn build(
         failed_count,
         summary,
         items,
+        methods: methods.into_values().collect(),
         references: all_refs.into_iter().collect(),
         contents: Vec::new(),
         tool_version: packwright_core::run::TOOL_VERSION.into(),

@@ -197,6 +197,7 @@ fn typeset(
         rendered,
         &data.figures_per_item(),
         &data.item_contents(),
+        &data.method_contents(),
         &setting,
     )?;
     let started = Instant::now();

@@ -220,6 +220,7 @@ fn draw(
             .label_style((FONT, 15))
             .axis_desc_style((FONT, 16))
             .light_line_style(RGBColor(0xee, 0xee, 0xee))
+            .max_light_lines(1)
             .bold_line_style(RGBColor(0xd0, 0xd0, 0xd0))
             .x_labels(10)
             .y_labels(8)

@@ -10,6 +10,7 @@
 use std::path::Path;
 
 use handlebars::Handlebars;
+use rayon::prelude::*;
 use serde_json::Value as Json;
 
 use crate::data::PackageData;
@@ -53,6 +54,10 @@ pub const DEFAULTS: &[(&str, &str)] = &[
     (
         "references",
         include_str!("../../../templates/references.typ.hbs"),
+    ),
+    (
+        "method-statement",
+        include_str!("../../../templates/method-statement.typ.hbs"),
     ),
     ("item", include_str!("../../../templates/item.typ.hbs")),
     (
@@ -240,7 +245,8 @@ impl Templates {
     }
 
     /// Renders every part of the package: the preamble and the page
-    /// furniture, the front matter, one section per item (the module's
+    /// furniture, the front matter, one method statement per module used,
+    /// one section per item (the module's
     /// template, or the generic one), and the references. The typesetter
     /// puts the pieces together into the sources it compiles.
     pub fn render(&self, data: &PackageData) -> Result<Rendered, TemplateError> {
@@ -252,31 +258,47 @@ impl Templates {
         let preamble = self.piece("preamble", None, &json)?;
         let furniture = self.piece("page-furniture", None, &json)?;
         let front = self.render_front(&json)?;
-        let mut items = Vec::new();
-        let rows = json["items"].as_array().cloned().unwrap_or_default();
-        for (item, (id, module)) in rows.iter().zip(data.item_modules()) {
-            let specific = format!("modules/{module}");
-            let name = if self.files.contains_key(&specific) {
-                specific.as_str()
-            } else {
-                "item"
-            };
-            // A small context per item: the whole package would be cloned
-            // once per item otherwise.
+        let mut methods = Vec::new();
+        for method in json["methods"].as_array().into_iter().flatten() {
             let ctx = serde_json::json!({
                 "project": json["project"],
                 "revision": json["revision"],
                 "digest": json["digest"],
-                "item": item,
+                "method": method,
             });
-            items.push(self.piece(name, Some(id), &ctx)?);
+            methods.push(self.piece("method-statement", None, &ctx)?);
         }
+        // Items are rendered in parallel: a large package spent a tenth of
+        // its build here on one core.
+        let rows = json["items"].as_array().cloned().unwrap_or_default();
+        let items = rows
+            .par_iter()
+            .zip(data.item_modules())
+            .map(|(item, (id, module))| {
+                let specific = format!("modules/{module}");
+                let name = if self.files.contains_key(&specific) {
+                    specific.as_str()
+                } else {
+                    "item"
+                };
+                // A small context per item: the whole package would be
+                // cloned once per item otherwise.
+                let ctx = serde_json::json!({
+                    "project": json["project"],
+                    "revision": json["revision"],
+                    "digest": json["digest"],
+                    "item": item,
+                });
+                self.piece(name, Some(id), &ctx)
+            })
+            .collect::<Result<Vec<_>, _>>()?;
         let references = self.piece("references", None, &json)?;
         Ok(Rendered {
             json,
             preamble,
             furniture,
             front,
+            methods,
             items,
             references,
         })
@@ -290,6 +312,11 @@ impl Templates {
             .iter()
             .map(|name| self.piece(name, None, json))
             .collect()
+    }
+
+    /// Renders one template by name from `json`, as a piece of source.
+    pub fn render_piece(&self, name: &str, json: &Json) -> Result<Piece, TemplateError> {
+        self.piece(name, None, json)
     }
 
     fn piece(&self, name: &str, item: Option<&str>, json: &Json) -> Result<Piece, TemplateError> {
@@ -331,6 +358,8 @@ pub struct Rendered {
     pub furniture: Piece,
     /// Cover to general cautions.
     pub front: Vec<Piece>,
+    /// One method statement per module, by module name.
+    pub methods: Vec<Piece>,
     /// One section per item, in package order.
     pub items: Vec<Piece>,
     /// The list of references.
