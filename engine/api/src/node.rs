@@ -9,9 +9,12 @@ use std::sync::Arc;
 
 /// Where a value stands in a project file: the path relative to the project
 /// root, and a 1-based line and column.
-#[derive(Debug, Clone, PartialEq, Eq, PartialOrd, Ord, Hash)]
+#[derive(
+    Debug, Clone, PartialEq, Eq, PartialOrd, Ord, Hash, serde::Serialize, serde::Deserialize,
+)]
 pub struct Span {
     /// Path of the file relative to the project root, with `/` separators.
+    #[serde(deserialize_with = "shared_file")]
     pub file: Arc<str>,
     /// Line, counting from 1.
     pub line: u32,
@@ -30,14 +33,42 @@ impl Span {
     }
 }
 
+/// Reads a span's file name, sharing one allocation among the spans of one
+/// file read in a row on a thread: every node of an item names its file,
+/// and an allocation each was a visible part of reading a stored item.
+fn shared_file<'de, D: serde::Deserializer<'de>>(d: D) -> Result<Arc<str>, D::Error> {
+    use std::cell::RefCell;
+    thread_local! {
+        static LAST: RefCell<Option<Arc<str>>> = const { RefCell::new(None) };
+    }
+    struct Name;
+    impl serde::de::Visitor<'_> for Name {
+        type Value = Arc<str>;
+        fn expecting(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+            f.write_str("a file name")
+        }
+        fn visit_str<E: serde::de::Error>(self, name: &str) -> Result<Arc<str>, E> {
+            Ok(LAST.with(|last| {
+                let mut last = last.borrow_mut();
+                match &*last {
+                    Some(file) if **file == *name => file.clone(),
+                    _ => last.insert(Arc::from(name)).clone(),
+                }
+            }))
+        }
+    }
+    d.deserialize_str(Name)
+}
+
 impl fmt::Display for Span {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         write!(f, "{}:{}:{}", self.file, self.line, self.column)
     }
 }
 
-/// A YAML value with the position it was read from.
-#[derive(Debug, Clone, PartialEq)]
+/// A YAML value with the position it was read from. Serde-able so that
+/// the engine can keep parsed items between runs (its item index).
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Node {
     /// The value.
     pub value: NodeValue,
@@ -46,7 +77,7 @@ pub struct Node {
 }
 
 /// The kinds of value a [`Node`] holds.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub enum NodeValue {
     /// `~`, `null` or nothing.
     Null,

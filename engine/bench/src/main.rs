@@ -10,7 +10,8 @@
 //!
 //! Usage: `packwright-bench [RUN_ITEMS] [BUILD_ITEMS]` (defaults 1000 and 100;
 //! 0 build items skips the build),
-//! or `packwright-bench --generate N DIR` to write a project for profiling.
+//! or `packwright-bench --generate N DIR` to write a project for profiling
+//! and `packwright-bench --run DIR` to run it once in process.
 //! It prints figures; it asserts nothing about time.
 
 use std::path::Path;
@@ -128,6 +129,26 @@ fn main() {
         println!(
             "{} items written to {dir}",
             generate(&demo, Path::new(&dir), n)
+        );
+        return;
+    }
+
+    // `packwright-bench --run DIR` runs a project once, in process, for
+    // profiling what the figures below measure (the binary adds its own
+    // registry loading and results table).
+    if let Some(dir) = std::env::args()
+        .nth(2)
+        .filter(|_| std::env::args().nth(1).as_deref() == Some("--run"))
+    {
+        let start = Instant::now();
+        let (_, outcome) =
+            packwright_core::run_project(Path::new(&dir), &registry, RunOptions::default())
+                .expect("run");
+        println!(
+            "{} items, {} computed, {:.3} s",
+            outcome.items.len(),
+            outcome.computed,
+            seconds(start)
         );
         return;
     }

@@ -6,22 +6,30 @@
 //! The cache lives in the hidden folder `.packwright-cache/` of the project
 //! (not meant to be committed). Losing it costs only time. State: the files
 //! in that folder: `outcomes.bin` (every outcome, one file), `index.bin`
-//! (see [`crate::index`]), `results-spare/` (see
+//! (see [`crate::index`]), `items.bin` (see [`crate::item_index`]),
+//! `results-spare/` (see
 //! [`crate::fsio::update_dir`]) and `lock`.
 //!
 //! Outcomes are stored in one file, in postcard's binary form, because a
 //! rerun reads all of them: a thousand separate JSON files cost a thousand
 //! opens and a JSON number parse per value, which was most of a rerun. A
 //! binary `f64` reads back to the same bits, as the JSON numbers did.
+//!
+//! An outcome is decoded only when looked at ([`SharedOutcome`]), so the
+//! file must never hold bytes that fail to decode: it is checksummed
+//! (CRC-32) and headed by the identity of the build that wrote it (an
+//! outcome's layout may differ in a rebuilt tool of the same version), and
+//! a file that fails either is ignored whole, which costs only time. Each
+//! entry holds the outputs alone beside the whole outcome, because the
+//! outputs of a linked item enter the digests of the items that link to it.
 
 use std::collections::HashMap;
 use std::fs;
 use std::path::{Path, PathBuf};
 use std::sync::OnceLock;
 
-use packwright_api::Outcome;
-
-use crate::run::{OutcomeStore, RunOutcome};
+use crate::framed;
+use crate::run::{Encoded, OutcomeStore, RunOutcome, SharedOutcome};
 
 /// The cache folder's name inside a project.
 pub const CACHE_FOLDER: &str = ".packwright-cache";
@@ -31,13 +39,14 @@ const OUTCOMES_FILE: &str = "outcomes.bin";
 
 /// First bytes of the outcomes file; a new layout gets a new tag, so an old
 /// file is ignored rather than misread.
-const OUTCOMES_MAGIC: &[u8; 16] = b"packwright-out-1";
+const OUTCOMES_MAGIC: &[u8; 16] = b"packwright-out-2";
 
 /// Names in the cache folder that [`Cache::save`] keeps; anything else is
 /// an older layout's leftover (the per-digest `.json` files) and goes.
-const KEPT: [&str; 4] = [
+const KEPT: [&str; 5] = [
     OUTCOMES_FILE,
     crate::index::INDEX_FILE,
+    crate::item_index::ITEMS_FILE,
     crate::index::SPARE_FOLDER,
     crate::index::LOCK_FILE,
 ];
@@ -51,59 +60,55 @@ pub struct Cache {
     stored: OnceLock<Stored>,
 }
 
-#[derive(Debug, Default)]
+/// Where an entry's outputs and whole outcome lie in the file.
+type Ranges = (std::ops::Range<usize>, std::ops::Range<usize>);
+
+#[derive(Debug)]
 struct Stored {
-    bytes: Vec<u8>,
-    entries: HashMap<String, (usize, usize)>,
+    bytes: Encoded,
+    entries: HashMap<String, Ranges>,
 }
 
 impl Stored {
     fn read(path: &Path) -> Stored {
-        let Ok(bytes) = fs::read(path) else {
-            return Stored::default();
-        };
+        let bytes = fs::read(path).unwrap_or_default();
         let entries = parse_entries(&bytes).unwrap_or_default();
-        Stored { bytes, entries }
-    }
-
-    fn entry(&self, digest: &str) -> Option<&[u8]> {
-        let &(start, end) = self.entries.get(digest)?;
-        self.bytes.get(start..end)
+        Stored {
+            bytes: bytes.into(),
+            entries,
+        }
     }
 }
 
-fn read_u32(bytes: &[u8], at: &mut usize) -> Option<usize> {
-    let b = bytes.get(*at..*at + 4)?;
-    *at += 4;
-    Some(u32::from_le_bytes(b.try_into().ok()?) as usize)
-}
-
-/// The entries of an outcomes file: after the tag, repeated
-/// `[digest length][digest][outcome length][outcome]`, lengths as u32 LE.
-/// A truncated or foreign file gives `None` (and so no hits).
-fn parse_entries(bytes: &[u8]) -> Option<HashMap<String, (usize, usize)>> {
-    let mut at = OUTCOMES_MAGIC.len();
-    if bytes.get(..at)? != OUTCOMES_MAGIC {
-        return None;
-    }
+/// The entries of an outcomes file: after the framing (see
+/// [`crate::framed`]), repeated `[digest][outputs][outcome]` parts. A
+/// truncated, damaged or foreign file, or one another build wrote, gives
+/// `None` (and so no hits).
+fn parse_entries(bytes: &[u8]) -> Option<HashMap<String, Ranges>> {
+    let mut at = framed::open(bytes, OUTCOMES_MAGIC)?;
     let mut entries = HashMap::new();
     while at < bytes.len() {
-        let n = read_u32(bytes, &mut at)?;
-        let digest = std::str::from_utf8(bytes.get(at..at + n)?).ok()?;
-        at += n;
-        let m = read_u32(bytes, &mut at)?;
-        bytes.get(at..at + m)?;
-        entries.insert(digest.to_string(), (at, at + m));
-        at += m;
+        let digest = framed::read_part(bytes, &mut at)?;
+        let digest = std::str::from_utf8(&bytes[digest]).ok()?;
+        let outputs = framed::read_part(bytes, &mut at)?;
+        let full = framed::read_part(bytes, &mut at)?;
+        entries.insert(digest.to_string(), (outputs, full));
     }
     Some(entries)
 }
 
-fn push_entry(out: &mut Vec<u8>, digest: &str, outcome: &[u8]) {
-    out.extend_from_slice(&(digest.len() as u32).to_le_bytes());
-    out.extend_from_slice(digest.as_bytes());
-    out.extend_from_slice(&(outcome.len() as u32).to_le_bytes());
-    out.extend_from_slice(outcome);
+/// A new outcomes file's bytes from its entries (digest, encoded outputs,
+/// encoded outcome).
+fn outcomes_file<'a>(
+    entries: impl Iterator<Item = (&'a str, &'a [u8], &'a [u8])>,
+) -> Option<Vec<u8>> {
+    let mut out = framed::begin(OUTCOMES_MAGIC)?;
+    for (digest, outputs, full) in entries {
+        framed::push_part(&mut out, digest.as_bytes());
+        framed::push_part(&mut out, outputs);
+        framed::push_part(&mut out, full);
+    }
+    Some(framed::finish(out))
 }
 
 impl Cache {
@@ -147,19 +152,28 @@ impl Cache {
         if unchanged {
             return;
         }
-        let mut out = OUTCOMES_MAGIC.to_vec();
-        for (digest, run) in wanted {
-            match stored.entry(digest) {
-                Some(bytes) => push_entry(&mut out, digest, bytes),
-                None => {
-                    let Ok(bytes) = postcard::to_allocvec(&run.outcome) else {
-                        continue;
-                    };
-                    push_entry(&mut out, digest, &bytes);
-                }
-            }
+        let encoded: Vec<(&str, Vec<u8>, Vec<u8>)> = wanted
+            .iter()
+            .filter(|(digest, _)| !stored.entries.contains_key(*digest))
+            .filter_map(|(digest, run)| {
+                let outputs = postcard::to_allocvec(&run.outcome.outputs).ok()?;
+                let full = postcard::to_allocvec(&*run.outcome).ok()?;
+                Some((*digest, outputs, full))
+            })
+            .collect();
+        let kept = wanted.iter().filter_map(|(digest, _)| {
+            let (outputs, full) = stored.entries.get(*digest)?;
+            let bytes = &stored.bytes;
+            Some((*digest, &bytes[outputs.clone()], &bytes[full.clone()]))
+        });
+        let new = encoded
+            .iter()
+            .map(|(digest, outputs, full)| (*digest, &outputs[..], &full[..]));
+        let mut entries: Vec<(&str, &[u8], &[u8])> = kept.chain(new).collect();
+        entries.sort_by(|a, b| a.0.cmp(b.0));
+        if let Some(out) = outcomes_file(entries.into_iter()) {
+            let _ = crate::fsio::write_file_unsynced(&self.dir.join(OUTCOMES_FILE), &out);
         }
-        let _ = crate::fsio::write_file_unsynced(&self.dir.join(OUTCOMES_FILE), &out);
     }
 
     /// Removes what an older layout of the cache left (one JSON file per
@@ -184,8 +198,14 @@ impl Cache {
 }
 
 impl OutcomeStore for Cache {
-    fn get(&self, digest: &str) -> Option<Outcome> {
-        postcard::from_bytes(self.stored().entry(digest)?).ok()
+    fn get(&self, digest: &str) -> Option<SharedOutcome> {
+        let stored = self.stored();
+        let (outputs, full) = stored.entries.get(digest)?;
+        Some(SharedOutcome::encoded(
+            stored.bytes.clone(),
+            outputs.clone(),
+            full.clone(),
+        ))
     }
 }
 
@@ -195,11 +215,16 @@ mod tests {
 
     #[test]
     fn a_damaged_outcomes_file_gives_no_hits() {
-        let mut bytes = OUTCOMES_MAGIC.to_vec();
-        push_entry(&mut bytes, "sha256:ab", b"xyz");
-        assert!(parse_entries(&bytes).is_some_and(|e| e.len() == 1));
+        let good = outcomes_file([("sha256:ab", &b"o"[..], &b"xyz"[..])].into_iter())
+            .expect("the test binary has an identity");
+        assert!(parse_entries(&good).is_some_and(|e| e.len() == 1));
+        let mut bytes = good.clone();
         bytes.pop();
         assert!(parse_entries(&bytes).is_none(), "truncated");
+        let mut bytes = good.clone();
+        let last = bytes.len() - 2;
+        bytes[last] ^= 1;
+        assert!(parse_entries(&bytes).is_none(), "one bit changed");
         assert!(parse_entries(b"something else entirely").is_none());
     }
 }

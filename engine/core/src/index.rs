@@ -23,7 +23,7 @@ use std::sync::OnceLock;
 use serde::{Deserialize, Serialize};
 use sha2::{Digest, Sha256};
 
-use crate::run::{ItemRun, TOOL_VERSION};
+use crate::run::{ItemRun, RunOutcome, TOOL_VERSION};
 
 /// The index file inside the cache folder.
 pub const INDEX_FILE: &str = "index.bin";
@@ -58,6 +58,13 @@ pub struct Stamp {
     ctime: (i64, i64),
 }
 
+impl Stamp {
+    /// The change time, seconds and nanoseconds since the epoch.
+    pub fn ctime(&self) -> (i64, i64) {
+        self.ctime
+    }
+}
+
 /// The stamp of the file at `path` (not following a final link), or `None`
 /// when it is no regular file or the platform gives no change time.
 pub fn stamp_of(path: &Path) -> Option<Stamp> {
@@ -83,13 +90,16 @@ pub fn stamp_of(path: &Path) -> Option<Stamp> {
 /// What the index knows of one result file.
 #[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
 pub struct Entry {
-    /// [`result_key`] of the text, or `None` for files not made from one
-    /// item (the summary), which are always formatted again.
+    /// [`result_key`] (or [`summary_key`]) of the text; `None` is never
+    /// matched, so such a file is always formatted again.
     pub key: Option<Hash>,
     /// Digest of the file's text.
     pub content: Hash,
     /// The file's stamp right after it was written.
     pub stamp: Stamp,
+    /// For an item's file, the item's line of `summary.csv`, which is
+    /// made from the same things as the file (the key stands for it).
+    pub row: Option<String>,
 }
 
 /// The index of `results/`.
@@ -102,7 +112,7 @@ pub struct Index {
 
 /// Size and modification time of the running executable: what tells one
 /// build of the tool from another at the same version.
-fn build_identity() -> &'static str {
+pub(crate) fn build_identity() -> &'static str {
     static IDENTITY: OnceLock<String> = OnceLock::new();
     IDENTITY.get_or_init(|| {
         let exe = std::env::current_exe()
@@ -188,6 +198,32 @@ pub fn result_key(run: &ItemRun) -> Hash {
     }
     for name in run.inputs.criteria.keys() {
         field(name);
+    }
+    h.finalize().into()
+}
+
+/// A digest of everything `summary.csv` is made from: each item's id,
+/// module, title and inputs digest (which stands for its outcome, as in
+/// [`result_key`]) and every module's key outputs. With it the summary of
+/// a rerun is neither formatted nor its items' outcomes decoded.
+pub fn summary_key(outcome: &RunOutcome, key_outputs: &BTreeMap<String, Vec<String>>) -> Hash {
+    let mut h = Sha256::new();
+    let mut field = |s: &str| {
+        h.update((s.len() as u64).to_le_bytes());
+        h.update(s.as_bytes());
+    };
+    field(RESULTS_FORMAT);
+    field("summary.csv");
+    for (module, keys) in key_outputs {
+        field(module);
+        field(&keys.len().to_string());
+        keys.iter().for_each(|k| field(k));
+    }
+    for (id, run) in &outcome.items {
+        field(id);
+        field(&run.item.module);
+        field(&run.item.title);
+        field(&run.inputs_digest);
     }
     h.finalize().into()
 }

@@ -15,9 +15,11 @@ pub mod cache;
 pub mod diagnostic;
 pub mod diff;
 pub mod display;
+mod framed;
 pub mod fsio;
 pub mod index;
 pub mod issued;
+pub mod item_index;
 pub mod project;
 pub mod registry;
 pub mod resolve;
@@ -75,10 +77,36 @@ impl std::fmt::Display for EngineError {
 
 /// Loads and validates a project: every problem at once.
 pub fn check(root: &Path, registry: &Registry) -> Result<(Project, Plan), EngineError> {
-    let (project, mut problems) = project::load(root).map_err(EngineError::BadInput)?;
-    let plan = resolve::plan(&project, registry);
+    check_indexed(root, registry, None).map(|(project, plan, _)| (project, plan))
+}
+
+/// [`check`], with an item index (see [`item_index`]): unchanged item files
+/// are taken from it instead of being read, parsed and validated, and what
+/// the item index needs to be written after the run is returned.
+fn check_indexed(
+    root: &Path,
+    registry: &Registry,
+    index: Option<item_index::ItemIndex>,
+) -> Result<(Project, Plan, item_index::Seen), EngineError> {
+    let (project, mut problems, loaded) =
+        project::load_indexed(root, index.as_ref()).map_err(EngineError::BadInput)?;
+    let mut seen = item_index::Seen::default();
+    let mut reused = std::collections::HashMap::new();
+    if let Some(index) = index {
+        seen.resolve_key = item_index::resolve_key(registry, &project.materials);
+        let same_key = index.resolve_key() == seen.resolve_key;
+        for (file, planned) in loaded.reused {
+            if let Some(planned) = planned.filter(|_| same_key) {
+                reused.insert(file.clone(), planned);
+            }
+            seen.reused.insert(file);
+        }
+        seen.stamps = loaded.stamps;
+        seen.index = index;
+    }
+    let plan = resolve::plan_reusing(&project, registry, reused);
     match plan {
-        Ok(plan) if problems.is_empty() => Ok((project, plan)),
+        Ok(plan) if problems.is_empty() => Ok((project, plan, seen)),
         Ok(_) => {
             problems.sort();
             Err(EngineError::BadInput(problems))
@@ -126,7 +154,7 @@ pub struct RunOptions {
 /// One file of `results/` as a run makes it.
 struct ResultFile {
     name: String,
-    /// [`index::result_key`], for item files.
+    /// [`index::result_key`] or [`index::summary_key`].
     key: Option<index::Hash>,
     /// Digest of the text.
     content: index::Hash,
@@ -138,6 +166,8 @@ struct ResultFile {
     /// The stamp of the file in `results/` when it was found to hold the
     /// text, to see after taking the lock that no other writer came between.
     seen: Option<index::Stamp>,
+    /// An item's line of `summary.csv`, kept in the index.
+    row: Option<String>,
 }
 
 /// Makes one result file: from the index when `results/` holds the file
@@ -161,6 +191,7 @@ fn result_file(
                 key,
                 bytes: None,
                 on_disk: true,
+                row: None,
             };
         }
     }
@@ -181,6 +212,7 @@ fn result_file(
         bytes: Some(bytes),
         on_disk,
         seen,
+        row: None,
     }
 }
 
@@ -193,6 +225,7 @@ pub struct Computed {
     files: Vec<ResultFile>,
     index: index::Index,
     store: cache::Cache,
+    items: item_index::Seen,
 }
 
 impl Computed {
@@ -248,13 +281,20 @@ impl Computed {
             .files
             .par_iter()
             .map(|f| {
-                index::stamp_of(&results.join(&f.name)).map(|stamp| {
+                // Nothing written: every stamp was seen under the lock.
+                let stamp = if all_there {
+                    f.seen
+                } else {
+                    index::stamp_of(&results.join(&f.name))
+                };
+                stamp.map(|stamp| {
                     (
                         f.name.clone(),
                         index::Entry {
                             key: f.key,
                             content: f.content,
                             stamp,
+                            row: f.row.clone(),
                         },
                     )
                 })
@@ -265,6 +305,9 @@ impl Computed {
             index.save(cache_dir);
         }
         self.store.save(&self.outcome);
+        self.items.save(cache_dir, &self.project.items, |id| {
+            self.outcome.items.get(id).map(|run| &*run.item)
+        });
         Ok(())
     }
 
@@ -291,7 +334,13 @@ pub fn compute_project(
     registry: &Registry,
     options: RunOptions,
 ) -> Result<Computed, EngineError> {
-    let (project, plan) = check(root, registry)?;
+    // `--fresh` reuses no item, but the index is written anew after the run.
+    let index = if options.fresh {
+        item_index::ItemIndex::default()
+    } else {
+        item_index::ItemIndex::load(&root.join(cache::CACHE_FOLDER))
+    };
+    let (project, plan, items) = check_indexed(root, registry, Some(index))?;
     let store = cache::Cache::open(&project.root);
     if let Some(on_plan) = &options.on_plan {
         on_plan(plan.items.len());
@@ -341,29 +390,50 @@ pub fn compute_project(
         index::Index::load(store.dir())
     };
     let results_dir = project.root.join("results");
+    let keys = key_outputs(registry);
     let mut files: Vec<ResultFile> = outcome
         .items
         .par_iter()
         .map(|(id, run)| {
-            let key = Some(index::result_key(run));
-            result_file(&results_dir, &index, format!("{id}.yaml"), key, || {
+            let name = format!("{id}.yaml");
+            let key = index::result_key(run);
+            // The index's summary line of an item under the same key; a
+            // line made again would decode the item's outcome.
+            let row = index
+                .files
+                .get(&name)
+                .filter(|e| e.key == Some(key))
+                .and_then(|e| e.row.clone())
+                .unwrap_or_else(|| results::summary_row(run, &keys));
+            let mut file = result_file(&results_dir, &index, name, Some(key), || {
                 results::item_yaml(run)
-            })
+            });
+            file.row = Some(row);
+            file
         })
         .collect();
-    files.push(result_file(
+    let summary_key = index::summary_key(&outcome, &keys);
+    let summary = result_file(
         &results_dir,
         &index,
         "summary.csv".into(),
-        None,
-        || results::summary_csv(&outcome, &key_outputs(registry)),
-    ));
+        Some(summary_key),
+        || {
+            let mut text = results::summary_header();
+            files
+                .iter()
+                .for_each(|f| text.push_str(f.row.as_deref().unwrap_or("")));
+            text
+        },
+    );
+    files.push(summary);
     Ok(Computed {
         project,
         outcome,
         files,
         index,
         store,
+        items,
     })
 }
 

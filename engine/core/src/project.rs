@@ -14,6 +14,9 @@ use rayon::prelude::*;
 use walkdir::WalkDir;
 
 use crate::diagnostic::{Diagnostic, Diagnostics};
+use crate::index::Stamp;
+use crate::item_index::{ItemIndex, Reused};
+use crate::resolve::PlannedItem;
 use crate::yaml;
 
 /// Folders the tool writes, never read as items.
@@ -75,7 +78,7 @@ impl ProjectMeta {
 }
 
 /// A named bulk material or chain.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Material {
     /// The id items refer to.
     pub id: String,
@@ -92,7 +95,7 @@ pub struct Material {
 }
 
 /// A calculation item as written in its file.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct ItemFile {
     /// Unique id.
     pub id: String,
@@ -127,7 +130,8 @@ pub struct Project {
     pub materials: BTreeMap<String, Material>,
     /// Items, sorted by id.
     pub items: Vec<ItemFile>,
-    /// The text of every file read, by relative path, for messages.
+    /// The text of every file read, by relative path, for messages (an
+    /// item taken from the item index was not read).
     pub sources: BTreeMap<Arc<str>, String>,
 }
 
@@ -352,7 +356,30 @@ fn relative(root: &Path, path: &Path) -> Arc<str> {
 /// Loads the project at `root`. Returns the project with every well-formed
 /// part, and every problem found; the caller decides whether to go on.
 pub fn load(root: &Path) -> Result<(Project, Diagnostics), Diagnostics> {
+    load_indexed(root, None).map(|(project, out, _)| (project, out))
+}
+
+/// What [`load_indexed`] learnt of the item files besides their items.
+#[derive(Default)]
+pub struct ItemStamps {
+    /// The stamp of each item file, taken before it was read (or when its
+    /// item was reused); files that changed too shortly before, and linked
+    /// files, are left out.
+    pub stamps: HashMap<Arc<str>, Stamp>,
+    /// Files whose item came from the index, with its recorded resolved
+    /// form.
+    pub reused: HashMap<Arc<str>, Option<PlannedItem>>,
+}
+
+/// [`load`], taking the item of each item file whose stamp is unchanged
+/// from `index` instead of reading and parsing the file (see
+/// [`crate::item_index`]). Materials and `project.yaml` are always read.
+pub fn load_indexed(
+    root: &Path,
+    index: Option<&ItemIndex>,
+) -> Result<(Project, Diagnostics, ItemStamps), Diagnostics> {
     let mut out = Diagnostics::default();
+    let started = std::time::SystemTime::now();
     let root = root.canonicalize().map_err(|e| {
         Diagnostics(vec![Diagnostic::new(
             None,
@@ -490,34 +517,69 @@ pub fn load(root: &Path) -> Result<(Project, Diagnostics), Diagnostics> {
             linked: entry.path_is_symlink(),
         });
     }
-    type Read = Result<(String, Result<Option<Node>, Diagnostic>), Diagnostic>;
-    let read: Vec<Option<Read>> = steps
+    enum Read {
+        Reused(Box<Reused>),
+        Parsed(String, Result<Option<Node>, Diagnostic>),
+    }
+    /// A file's stamp (when it may be recorded) and what was read.
+    type Stamped = (Option<Stamp>, Result<Read, Diagnostic>);
+    let indexed =
+        |rel: &Arc<str>, linked: bool| index.filter(|_| !linked && !rel.starts_with("materials/"));
+    let read: Vec<Option<Stamped>> = steps
         .par_iter()
         .map(|step| match step {
             Step::Problem(_) => None,
             Step::File { path, rel, linked } => {
-                Some(read_file(&root, path, rel, *linked).map(|bytes| {
+                let index = indexed(rel, *linked);
+                // Taken before reading: a write after it changes the stamp.
+                let stamp = index.and_then(|_| crate::index::stamp_of(path));
+                if let (Some(index), Some(stamp)) = (index, &stamp) {
+                    if let Some(reused) = index.reuse(rel, stamp) {
+                        return Some((Some(*stamp), Ok(Read::Reused(Box::new(reused)))));
+                    }
+                }
+                let stamp = stamp.filter(|s| crate::item_index::settled(s, started));
+                let read = read_file(&root, path, rel, *linked).map(|bytes| {
                     let text = String::from_utf8_lossy(&bytes).into_owned();
-                    (text, yaml::parse_bytes(rel, &bytes))
-                }))
+                    Read::Parsed(text, yaml::parse_bytes(rel, &bytes))
+                });
+                Some((stamp, read))
             }
         })
         .collect();
     let mut item_ids: HashMap<String, usize> = HashMap::new();
+    let mut seen = ItemStamps::default();
     for (step, read) in steps.into_iter().zip(read) {
-        let (rel, read) = match (step, read) {
+        let (rel, stamp, read) = match (step, read) {
             (Step::Problem(d), _) => {
                 out.push(d);
                 continue;
             }
-            (Step::File { rel, .. }, Some(read)) => (rel, read),
+            (Step::File { rel, .. }, Some((stamp, read))) => (rel, stamp, read),
             (Step::File { .. }, None) => continue,
         };
-        let parsed = read.map(|(text, parsed)| {
-            sources.insert(rel.clone(), text);
-            parsed
-        });
-        let node = match parsed.and_then(|p| p) {
+        let parsed = match read {
+            Ok(Read::Reused(reused)) => {
+                // A reused item was valid when recorded; only its place
+                // among the other items is checked again.
+                if let Some(stamp) = stamp {
+                    seen.stamps.insert(rel.clone(), stamp);
+                }
+                let Reused { item, planned } = *reused;
+                seen.reused.insert(rel.clone(), planned);
+                add_item(item, &mut items, &mut item_ids, &mut out);
+                continue;
+            }
+            Ok(Read::Parsed(text, parsed)) => {
+                sources.insert(rel.clone(), text);
+                if let Some(stamp) = stamp {
+                    seen.stamps.insert(rel.clone(), stamp);
+                }
+                parsed
+            }
+            Err(d) => Err(d),
+        };
+        let node = match parsed {
             Ok(Some(node)) => node,
             Ok(None) => {
                 out.push(
@@ -549,20 +611,7 @@ pub fn load(root: &Path) -> Result<(Project, Diagnostics), Diagnostics> {
                 }
             }
         } else if let Some(item) = parse_item(&node, rel.clone(), &mut out) {
-            if let Some(&prev) = item_ids.get(&item.id) {
-                let prev: &ItemFile = &items[prev];
-                out.push(
-                    Diagnostic::new(
-                        Some(item.id_span.clone()),
-                        format!("item id `{}` is used twice", item.id),
-                    )
-                    .related(prev.id_span.clone(), "the other item with this id")
-                    .expected("a unique id for each item, such as `CV-101-LOAD`"),
-                );
-            } else {
-                item_ids.insert(item.id.clone(), items.len());
-                items.push(item);
-            }
+            add_item(item, &mut items, &mut item_ids, &mut out);
         }
     }
     items.sort_by(|a, b| a.id.cmp(&b.id));
@@ -575,7 +624,31 @@ pub fn load(root: &Path) -> Result<(Project, Diagnostics), Diagnostics> {
             sources,
         },
         out,
+        seen,
     ))
+}
+
+/// Adds an item unless its id is taken, which is reported.
+fn add_item(
+    item: ItemFile,
+    items: &mut Vec<ItemFile>,
+    item_ids: &mut HashMap<String, usize>,
+    out: &mut Diagnostics,
+) {
+    if let Some(&prev) = item_ids.get(&item.id) {
+        let prev: &ItemFile = &items[prev];
+        out.push(
+            Diagnostic::new(
+                Some(item.id_span.clone()),
+                format!("item id `{}` is used twice", item.id),
+            )
+            .related(prev.id_span.clone(), "the other item with this id")
+            .expected("a unique id for each item, such as `CV-101-LOAD`"),
+        );
+    } else {
+        item_ids.insert(item.id.clone(), items.len());
+        items.push(item);
+    }
 }
 
 fn parse_signature(node: Option<&Node>, role: &str, out: &mut Diagnostics) -> Option<Signature> {

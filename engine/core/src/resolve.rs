@@ -19,7 +19,7 @@ use crate::project::{did_you_mean, ItemFile, Project};
 use crate::registry::Registry;
 
 /// An input that takes another item's output.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Link {
     /// The input that receives the value.
     pub input: String,
@@ -34,7 +34,7 @@ pub struct Link {
 }
 
 /// An item ready to run: everything resolved but its links' values.
-#[derive(Debug, Clone)]
+#[derive(Debug, Clone, serde::Serialize, serde::Deserialize)]
 pub struct PlannedItem {
     /// The item id.
     pub id: String,
@@ -46,8 +46,10 @@ pub struct PlannedItem {
     pub notes: Option<String>,
     /// The file.
     pub file: std::sync::Arc<str>,
-    /// Resolved inputs and criteria (links not yet filled).
-    pub inputs: Inputs,
+    /// Resolved inputs and criteria (links not yet filled); shared with
+    /// the run of an item without links rather than copied.
+    #[serde(with = "crate::item_index::inputs_serde")]
+    pub inputs: std::sync::Arc<Inputs>,
     /// Links to fill before computing.
     pub links: Vec<Link>,
     /// The material used, if any: (input name, material id).
@@ -58,8 +60,8 @@ pub struct PlannedItem {
 /// grouped into levels that may run in parallel.
 #[derive(Debug, Clone)]
 pub struct Plan {
-    /// Items by id.
-    pub items: BTreeMap<String, PlannedItem>,
+    /// Items by id (shared with the runs made from them).
+    pub items: BTreeMap<String, std::sync::Arc<PlannedItem>>,
     /// Levels of item ids; each level depends only on earlier levels.
     pub levels: Vec<Vec<String>>,
 }
@@ -205,16 +207,17 @@ fn link_of(node: &Node) -> Option<Result<(String, String, Span, String), Diagnos
     }
 }
 
-/// Resolves one item against its module. Returns the planned item, or
-/// pushes its problems and returns `None`.
+/// Resolves one item against its module, all but its links' targets (see
+/// [`check_links`]): what depends on the item's file, its module and the
+/// materials only, so that the item index can keep it. Returns the planned
+/// item and whether it is free of problems (its problems are pushed).
 fn resolve_item(
     item: &ItemFile,
     decl: &ModuleDeclaration,
     project: &Project,
-    by_id: &HashMap<&str, &ItemFile>,
     registry: &Registry,
     out: &mut Diagnostics,
-) -> Option<PlannedItem> {
+) -> (PlannedItem, bool) {
     let before = out.0.len();
     let mut values: BTreeMap<String, ResolvedInput> = BTreeMap::new();
     let mut links = Vec::new();
@@ -461,8 +464,43 @@ fn resolve_item(
         }
     }
 
-    // Links: the target exists, has the output, and the dimensions agree.
-    for link in &links {
+    let inputs = Inputs {
+        item: item.id.clone(),
+        values,
+        criteria,
+    };
+    // Linked values are not known yet: such items are validated as they run.
+    if out.0.len() == before && links.is_empty() {
+        let module = &registry.get(&decl.name).expect("registered").module;
+        for e in module.check_inputs(&inputs) {
+            out.push(diag_from_calc(e, item));
+        }
+    }
+    let planned = PlannedItem {
+        id: item.id.clone(),
+        module: decl.name.clone(),
+        title: item.title.clone(),
+        notes: item.notes.clone(),
+        file: item.file.clone(),
+        inputs: inputs.into(),
+        links,
+        materials,
+    };
+    (planned, out.0.len() == before)
+}
+
+/// Checks an item's links against the items they name: the target exists,
+/// has the output, the dimensions agree, and it is not the item itself.
+fn check_links(
+    item: &ItemFile,
+    links: &[Link],
+    decl: &ModuleDeclaration,
+    project: &Project,
+    by_id: &HashMap<&str, &ItemFile>,
+    registry: &Registry,
+    out: &mut Diagnostics,
+) {
+    for link in links {
         let spec = decl.input(&link.input).expect("link input is declared");
         let Some(&target) = by_id.get(link.item.as_str()) else {
             let ids: Vec<&str> = project.items.iter().map(|i| i.id.as_str()).collect();
@@ -534,45 +572,40 @@ fn resolve_item(
             );
         }
     }
-
-    let inputs = Inputs {
-        item: item.id.clone(),
-        values,
-        criteria,
-    };
-    // Linked values are not known yet: such items are validated as they run.
-    if out.0.len() == before && links.is_empty() {
-        let module = &registry.get(&decl.name).expect("registered").module;
-        for e in module.check_inputs(&inputs) {
-            out.push(diag_from_calc(e, item));
-        }
-    }
-    (out.0.len() == before).then(|| PlannedItem {
-        id: item.id.clone(),
-        module: decl.name.clone(),
-        title: item.title.clone(),
-        notes: item.notes.clone(),
-        file: item.file.clone(),
-        inputs,
-        links,
-        materials,
-    })
 }
 
 /// Validates and links every item. Returns the plan when there is no
 /// problem at all, otherwise every problem found.
 pub fn plan(project: &Project, registry: &Registry) -> Result<Plan, Diagnostics> {
+    plan_reusing(project, registry, HashMap::new())
+}
+
+/// [`plan`], taking the resolved form of the items in `reused` (by file)
+/// as it is instead of resolving them again; their links are checked all
+/// the same. The caller vouches that each was resolved from the same item
+/// file under the same modules and materials (see [`crate::item_index`]).
+pub fn plan_reusing(
+    project: &Project,
+    registry: &Registry,
+    mut reused: HashMap<std::sync::Arc<str>, PlannedItem>,
+) -> Result<Plan, Diagnostics> {
     let mut out = Diagnostics::default();
     let mut items = BTreeMap::new();
     let known: Vec<&str> = registry.names().collect();
     let by_id: HashMap<&str, &ItemFile> =
         project.items.iter().map(|i| (i.id.as_str(), i)).collect();
+    let earlier: Vec<Option<PlannedItem>> = project
+        .items
+        .iter()
+        .map(|item| reused.remove(&item.file))
+        .collect();
     // Items resolve independently, so in parallel; their problems are
     // gathered in item order.
     let resolved: Vec<(Option<PlannedItem>, Diagnostics)> = project
         .items
         .par_iter()
-        .map(|item| {
+        .zip(earlier)
+        .map(|(item, earlier)| {
             let mut out = Diagnostics::default();
             let Some(registered) = registry.get(&item.module) else {
                 let mut d = Diagnostic::new(
@@ -592,21 +625,29 @@ pub fn plan(project: &Project, registry: &Registry) -> Result<Plan, Diagnostics>
                 out.push(d);
                 return (None, out);
             };
-            let planned = resolve_item(
+            let decl = &registered.declaration;
+            let (planned, ok) = match earlier {
+                Some(planned) if planned.module == decl.name => (planned, true),
+                _ => resolve_item(item, decl, project, registry, &mut out),
+            };
+            let before = out.0.len();
+            check_links(
                 item,
-                &registered.declaration,
+                &planned.links,
+                decl,
                 project,
                 &by_id,
                 registry,
                 &mut out,
             );
-            (planned, out)
+            let ok = ok && out.0.len() == before;
+            (ok.then_some(planned), out)
         })
         .collect();
     for (planned, problems) in resolved {
         out.0.extend(problems.0);
         if let Some(planned) = planned {
-            items.insert(planned.id.clone(), planned);
+            items.insert(planned.id.clone(), std::sync::Arc::new(planned));
         }
     }
     let levels = order(project, &mut out);

@@ -156,10 +156,27 @@ pub fn item_yaml(run: &ItemRun) -> String {
 
 /// The text of `results/summary.csv`: one row per item.
 pub fn summary_csv(outcome: &RunOutcome, key_outputs: &BTreeMap<String, Vec<String>>) -> String {
+    let mut s = summary_header();
+    for run in outcome.items.values() {
+        s.push_str(&summary_row(run, key_outputs));
+    }
+    s
+}
+
+/// A CSV writer as the summary is written: each record on its own, so
+/// that a rerun can keep the rows of unchanged items (see
+/// [`crate::index::Entry::row`]).
+fn csv_line(record: [&str; 9]) -> String {
     let mut w = csv::WriterBuilder::new()
         .terminator(csv::Terminator::Any(b'\n'))
         .from_writer(Vec::new());
-    let _ = w.write_record([
+    let _ = w.write_record(record);
+    String::from_utf8(w.into_inner().expect("in-memory writer")).expect("csv is UTF-8")
+}
+
+/// The first line of `results/summary.csv`.
+pub fn summary_header() -> String {
+    csv_line([
         "item",
         "module",
         "title",
@@ -169,43 +186,44 @@ pub fn summary_csv(outcome: &RunOutcome, key_outputs: &BTreeMap<String, Vec<Stri
         "checks_passed",
         "checks_failed",
         "inputs_digest",
-    ]);
-    for (id, run) in &outcome.items {
-        let key = key_outputs
-            .get(&run.item.module)
-            .and_then(|keys| keys.iter().find(|k| run.outcome.outputs.contains_key(*k)))
-            .or_else(|| run.outcome.outputs.keys().next());
-        let (key_name, key_value, key_unit) = match key {
-            Some(k) => {
-                let m = &run.outcome.outputs[k];
-                (
-                    k.clone(),
-                    number(m.value),
-                    m.dimension.si_unit().to_string(),
-                )
-            }
-            None => (String::new(), String::new(), String::new()),
-        };
-        let passed = run
-            .outcome
-            .checks
-            .iter()
-            .filter(|c| c.status == Status::Pass)
-            .count();
-        let failed = run.outcome.checks.len() - passed;
-        let _ = w.write_record([
-            id.as_str(),
-            run.item.module.as_str(),
-            run.item.title.as_str(),
-            &key_name,
-            &key_value,
-            &key_unit,
-            &passed.to_string(),
-            &failed.to_string(),
-            run.inputs_digest.as_str(),
-        ]);
-    }
-    String::from_utf8(w.into_inner().expect("in-memory writer")).expect("csv is UTF-8")
+    ])
+}
+
+/// One item's line of `results/summary.csv`.
+pub fn summary_row(run: &ItemRun, key_outputs: &BTreeMap<String, Vec<String>>) -> String {
+    let key = key_outputs
+        .get(&run.item.module)
+        .and_then(|keys| keys.iter().find(|k| run.outcome.outputs.contains_key(*k)))
+        .or_else(|| run.outcome.outputs.keys().next());
+    let (key_name, key_value, key_unit) = match key {
+        Some(k) => {
+            let m = &run.outcome.outputs[k];
+            (
+                k.clone(),
+                number(m.value),
+                m.dimension.si_unit().to_string(),
+            )
+        }
+        None => (String::new(), String::new(), String::new()),
+    };
+    let passed = run
+        .outcome
+        .checks
+        .iter()
+        .filter(|c| c.status == Status::Pass)
+        .count();
+    let failed = run.outcome.checks.len() - passed;
+    csv_line([
+        run.item.id.as_str(),
+        run.item.module.as_str(),
+        run.item.title.as_str(),
+        &key_name,
+        &key_value,
+        &key_unit,
+        &passed.to_string(),
+        &failed.to_string(),
+        run.inputs_digest.as_str(),
+    ])
 }
 
 /// Every file of `results/`, by name.

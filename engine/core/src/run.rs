@@ -6,7 +6,8 @@
 //! Owns no state; results come back as values.
 
 use std::collections::BTreeMap;
-use std::sync::Mutex;
+use std::ops::Range;
+use std::sync::{Arc, Mutex, OnceLock};
 
 use packwright_api::{
     CalcError, Inputs, Measure, Module, ModuleDeclaration, Origin, Outcome, ResolvedInput, Value,
@@ -21,15 +22,17 @@ use crate::resolve::{Plan, PlannedItem};
 #[derive(Debug, Clone)]
 pub struct ItemRun {
     /// The plan entry.
-    pub item: PlannedItem,
-    /// The inputs with links filled.
-    pub inputs: Inputs,
+    pub item: Arc<PlannedItem>,
+    /// The inputs with links filled (the plan entry's own, shared, when it
+    /// has no links).
+    pub inputs: Arc<Inputs>,
     /// The module version that ran.
     pub module_version: String,
     /// Digest of the resolved inputs, module and tool version.
     pub inputs_digest: String,
-    /// What the module produced.
-    pub outcome: Outcome,
+    /// What the module produced (decoded from the cache when first looked
+    /// at, for an item taken from it).
+    pub outcome: SharedOutcome,
     /// Whether the outcome came from the cache rather than a computation.
     pub from_cache: bool,
 }
@@ -61,7 +64,87 @@ pub struct RunOutcome {
 /// A store of earlier outcomes keyed by digest (see `cache`).
 pub trait OutcomeStore: Sync {
     /// An earlier outcome for this digest, if any.
-    fn get(&self, digest: &str) -> Option<Outcome>;
+    fn get(&self, digest: &str) -> Option<SharedOutcome>;
+}
+
+/// Encoded outcomes, shared by the [`SharedOutcome`]s taken from them.
+pub type Encoded = Arc<[u8]>;
+
+/// An item's outcome. One computed in this run is held as it is; one taken
+/// from the rerun cache is decoded when first looked at, because a rerun
+/// looks at few of them (the sources of links and the items whose result
+/// files are written), and decoding and dropping every outcome, series and
+/// plots included, was a large part of a rerun. The store vouches for the
+/// bytes (see `cache`: checksummed, written by this build of the tool).
+#[derive(Clone)]
+pub struct SharedOutcome(Arc<Lazy>);
+
+struct Lazy {
+    full: OnceLock<Outcome>,
+    outputs: OnceLock<BTreeMap<String, Measure>>,
+    /// The bytes, where the outputs alone are encoded, and where the whole
+    /// outcome is.
+    encoded: Option<(Encoded, Range<usize>, Range<usize>)>,
+}
+
+impl SharedOutcome {
+    /// An outcome taken from encoded bytes: `outputs` holds the outputs
+    /// alone and `full` the whole outcome, both in postcard's form.
+    pub fn encoded(bytes: Encoded, outputs: Range<usize>, full: Range<usize>) -> SharedOutcome {
+        SharedOutcome(Arc::new(Lazy {
+            full: OnceLock::new(),
+            outputs: OnceLock::new(),
+            encoded: Some((bytes, outputs, full)),
+        }))
+    }
+
+    /// One output, without decoding the rest of the outcome.
+    pub fn output(&self, name: &str) -> Option<&Measure> {
+        match (self.0.full.get(), &self.0.encoded) {
+            (None, Some((bytes, outputs, _))) => self
+                .0
+                .outputs
+                .get_or_init(|| decode(&bytes[outputs.clone()]))
+                .get(name),
+            _ => self.outputs.get(name),
+        }
+    }
+}
+
+/// Decodes what this build encoded into a store it checksums; failing
+/// here means the store's guarantees are broken, and going on with an
+/// empty value would change a result.
+fn decode<T: serde::de::DeserializeOwned>(bytes: &[u8]) -> T {
+    postcard::from_bytes(bytes).unwrap_or_else(|e| {
+        panic!("the rerun cache holds an outcome this build cannot read ({e}); run with --fresh")
+    })
+}
+
+impl From<Outcome> for SharedOutcome {
+    fn from(outcome: Outcome) -> SharedOutcome {
+        SharedOutcome(Arc::new(Lazy {
+            full: OnceLock::from(outcome),
+            outputs: OnceLock::new(),
+            encoded: None,
+        }))
+    }
+}
+
+impl std::ops::Deref for SharedOutcome {
+    type Target = Outcome;
+
+    fn deref(&self) -> &Outcome {
+        self.0.full.get_or_init(|| match &self.0.encoded {
+            Some((bytes, _, full)) => decode(&bytes[full.clone()]),
+            None => Outcome::default(),
+        })
+    }
+}
+
+impl std::fmt::Debug for SharedOutcome {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        std::fmt::Debug::fmt(&**self, f)
+    }
 }
 
 /// The tool's version, which enters every digest.
@@ -235,13 +318,13 @@ pub fn verify_outcome(
     Ok(())
 }
 
-fn fill_links(item: &PlannedItem, done: &BTreeMap<String, ItemRun>) -> Option<Inputs> {
+fn fill_links(item: &PlannedItem, done: &BTreeMap<String, ItemRun>) -> Option<Arc<Inputs>> {
     let mut inputs = item.inputs.clone();
     for link in &item.links {
         let source = done.get(&link.item)?;
-        let m: &Measure = source.outcome.outputs.get(&link.output)?;
+        let m: &Measure = source.outcome.output(&link.output)?;
         let value = Value::from_si(m.value, m.dimension);
-        inputs.values.insert(
+        Arc::make_mut(&mut inputs).values.insert(
             link.input.clone(),
             ResolvedInput {
                 value,
@@ -294,11 +377,11 @@ pub fn run_with_progress(
             let outcome = match cached {
                 Some(o) => Ok(o),
                 None => compute_guarded(registered.module.as_ref(), &inputs)
-                    .and_then(|o| verify_outcome(&o, decl, &inputs).map(|_| o)),
+                    .and_then(|o| verify_outcome(&o, decl, &inputs).map(|_| o.into())),
             };
             match outcome {
                 Ok(outcome) => done.lock().expect("not poisoned").push(ItemRun {
-                    item: item.clone(),
+                    item: Arc::clone(item),
                     inputs,
                     module_version: decl.version.clone(),
                     inputs_digest: digest,

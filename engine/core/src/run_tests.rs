@@ -199,15 +199,15 @@ fn two_item_run(fault: Fault) -> super::RunOutcome {
         title: id.into(),
         notes: None,
         file: Arc::from(format!("{id}.yaml")),
-        inputs: Inputs {
+        inputs: Arc::new(Inputs {
             item: id.into(),
             ..inputs(2.0)
-        },
+        }),
         links: vec![],
         materials: vec![],
     };
     let mut next = item("NEXT");
-    next.inputs.values.remove("speed");
+    Arc::make_mut(&mut next.inputs).values.remove("speed");
     next.links.push(Link {
         input: "speed".into(),
         item: "FAKE-1".into(),
@@ -217,8 +217,8 @@ fn two_item_run(fault: Fault) -> super::RunOutcome {
     });
     let plan = Plan {
         items: [
-            ("FAKE-1".to_string(), item("FAKE-1")),
-            ("NEXT".to_string(), next),
+            ("FAKE-1".to_string(), Arc::new(item("FAKE-1"))),
+            ("NEXT".to_string(), Arc::new(next)),
         ]
         .into_iter()
         .collect(),

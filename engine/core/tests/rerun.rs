@@ -12,6 +12,7 @@ use std::path::{Path, PathBuf};
 use std::sync::Arc;
 
 use packwright_api::prelude::*;
+use packwright_api::Need;
 use packwright_core::{ModuleOrigin, Registry, RunOptions, RunOutcome};
 
 /// `speed` passes on as `echo`; `force` is speed times the density, which
@@ -311,4 +312,155 @@ fn a_lost_or_damaged_cache_costs_only_time() {
     let fresh = run(root, true);
     assert_eq!(fresh.computed, 5);
     assert_eq!(results(root), good);
+}
+
+/// Runs and says which item files were read (and not taken from the item
+/// index): `Project::sources` holds the text of every file read.
+fn run_reading(root: &Path, registry: &Registry) -> (RunOutcome, Vec<String>) {
+    let (project, outcome) =
+        packwright_core::run_project(root, registry, RunOptions::default()).expect("runs");
+    let read = project
+        .sources
+        .keys()
+        .filter(|f| f.starts_with("items/"))
+        .map(|f| f.to_string())
+        .collect();
+    (outcome, read)
+}
+
+/// A project whose files changed long enough ago for the item index to
+/// record them (a file changed within a clock tick of being read is not).
+fn settled_project() -> tempfile::TempDir {
+    let dir = project();
+    let stat = fs::metadata(dir.path().join("items/a.yaml")).expect("stat");
+    // A file system that keeps whole seconds waits longer (two seconds).
+    let wait = if stat.ctime_nsec() == 0 { 2300 } else { 300 };
+    std::thread::sleep(std::time::Duration::from_millis(wait));
+    dir
+}
+
+#[test]
+fn unchanged_items_are_taken_from_the_item_index_and_give_the_same_bytes() {
+    let dir = settled_project();
+    let root = dir.path();
+    let registry = registry();
+    let (_, read) = run_reading(root, &registry);
+    assert_eq!(read.len(), 5, "the first run reads every item");
+    let cold = results(root);
+    let (warm, read) = run_reading(root, &registry);
+    assert!(read.is_empty(), "nothing read again: {read:?}");
+    assert_eq!(warm.computed, 0);
+    assert_eq!(results(root), cold);
+    assert_eq!(cold, fresh_results(root));
+    // One edit: that file alone is read; it and what links to it computed.
+    fs::write(root.join("items/a.yaml"), item("A", "speed: 2.5 m/s")).expect("write");
+    let (one, read) = run_reading(root, &registry);
+    assert_eq!(read, ["items/a.yaml"]);
+    assert_eq!(computed(&one), ["A", "B", "C"]);
+    assert_eq!(results(root), fresh_results(root));
+}
+
+#[test]
+fn the_item_index_sees_an_edit_that_keeps_size_and_modification_time() {
+    let dir = settled_project();
+    let root = dir.path();
+    let registry = registry();
+    run_reading(root, &registry);
+    let (_, read) = run_reading(root, &registry);
+    assert!(read.is_empty());
+    edit_keeping_size_and_mtime(&root.join("items/a.yaml"), "2.0 m/s", "2.5 m/s");
+    let (one, read) = run_reading(root, &registry);
+    assert_eq!(read, ["items/a.yaml"]);
+    assert_eq!(computed(&one), ["A", "B", "C"]);
+    assert_eq!(results(root), fresh_results(root));
+    // A material edit reaches the reused items that use it.
+    edit_keeping_size_and_mtime(&root.join("materials/ore.yaml"), "2200 kg/m3", "2300 kg/m3");
+    let (one, _) = run_reading(root, &registry);
+    assert_eq!(computed(&one), ["E"]);
+    assert_eq!(results(root), fresh_results(root));
+}
+
+#[test]
+fn a_changed_module_declaration_reaches_reused_items() {
+    let dir = settled_project();
+    let root = dir.path();
+    run_reading(root, &registry());
+    run_reading(root, &registry());
+    // Same name and version, another default: no item file changed, but
+    // every item that takes the default must see it.
+    let mut other = Registry::new();
+    other
+        .register(Arc::new(Scaled("1500 kg/m3")), ModuleOrigin::BuiltIn)
+        .expect("registers");
+    let (one, read) = run_reading(root, &other);
+    assert!(read.is_empty(), "parsed forms are still good: {read:?}");
+    assert_eq!(
+        computed(&one),
+        ["A", "B", "C", "D"],
+        "E takes its material's"
+    );
+    let forces = |o: &RunOutcome| o.items["D"].outcome.outputs["force"].value;
+    assert_eq!(forces(&one), 3.0 * 1500.0 / 3.0);
+}
+
+#[test]
+fn a_reused_item_whose_link_target_is_gone_is_refused() {
+    let dir = settled_project();
+    let root = dir.path();
+    let registry = registry();
+    run_reading(root, &registry);
+    run_reading(root, &registry);
+    fs::remove_file(root.join("items/a.yaml")).expect("rm");
+    let Err(err) = packwright_core::run_project(root, &registry, RunOptions::default()) else {
+        panic!("B links to a missing item");
+    };
+    assert!(err.to_string().contains("no item `A`"), "{err}");
+    // A renamed file is another entry of the index, read anew.
+    fs::write(root.join("items/a.yaml"), item("A", "speed: 2.0 m/s")).expect("write");
+    fs::rename(root.join("items/d.yaml"), root.join("items/d2.yaml")).expect("mv");
+    let (_, read) = run_reading(root, &registry);
+    assert_eq!(read, ["items/a.yaml", "items/d2.yaml"]);
+    assert_eq!(results(root), fresh_results(root));
+}
+
+#[test]
+fn a_damaged_item_index_costs_only_time() {
+    let dir = settled_project();
+    let root = dir.path();
+    let registry = registry();
+    run_reading(root, &registry);
+    let good = results(root);
+    let index = root.join(".packwright-cache/items.bin");
+    let mut bytes = fs::read(&index).expect("the index is written");
+    // One byte in the middle of an entry: a checksum catches it.
+    let middle = bytes.len() / 2;
+    bytes[middle] ^= 0x20;
+    fs::write(&index, &bytes).expect("write");
+    let (again, read) = run_reading(root, &registry);
+    assert_eq!(read.len(), 5, "nothing trusted from a damaged index");
+    assert_eq!(again.computed, 0, "the outcomes are still good");
+    assert_eq!(results(root), good);
+    fs::write(&index, &bytes[..middle]).expect("truncate");
+    let (_, read) = run_reading(root, &registry);
+    assert_eq!(read.len(), 5);
+    assert_eq!(results(root), good);
+}
+
+/// [`Scale`] with another default density, same name and version.
+struct Scaled(&'static str);
+
+impl Module for Scaled {
+    fn declaration(&self) -> ModuleDeclaration {
+        let mut decl = Scale.declaration();
+        for input in &mut decl.inputs {
+            if input.name == "bulk_density" {
+                input.need = Need::Default(self.0.into());
+            }
+        }
+        decl
+    }
+
+    fn compute(&self, inputs: &Inputs) -> Result<Outcome, CalcError> {
+        Scale.compute(inputs)
+    }
 }

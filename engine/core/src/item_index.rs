@@ -1,0 +1,372 @@
+//! The item index: every item file's parsed form and, when the item was
+//! valid, its resolved (validated) form, kept between runs under the file's
+//! stamp, so that a rerun neither reads, parses nor validates an item file
+//! that has not changed.
+//!
+//! An entry is used only when the file's stamp (device, inode, size,
+//! modification and change times) is the one taken just before the file
+//! was last read: any write changes the change time, which no program can
+//! set back, so an edit that keeps size and modification time is still
+//! seen. A file that changed shortly before it was read is not recorded at
+//! all ("settled" below): the file system's clock moves in ticks, and a
+//! second write in the same tick as the first would keep the stamp.
+//!
+//! The parsed form depends on the file alone (and on this build of the
+//! tool, whose identity heads the file). The resolved form depends also on
+//! the modules' declarations and on the materials; it is used only when the
+//! digest of those ([`resolve_key`]) is the one it was made under. Links
+//! between items are checked on every run (they depend on other items), and
+//! so is everything downstream: the inputs digest of every item is computed
+//! again, so a linked value that changed is still seen.
+//!
+//! The file is checksummed; a damaged, foreign or truncated index is
+//! ignored, so losing it costs only time. State:
+//! `.packwright-cache/items.bin`, written after a successful run.
+
+use std::collections::{BTreeMap, HashMap};
+use std::path::Path;
+use std::sync::Arc;
+use std::time::{Duration, SystemTime, UNIX_EPOCH};
+
+use sha2::{Digest, Sha256};
+
+use crate::framed;
+use crate::index::{build_identity, Hash, Stamp};
+use crate::project::{ItemFile, Material};
+use crate::registry::Registry;
+use crate::resolve::PlannedItem;
+
+/// The index file inside the cache folder.
+pub const ITEMS_FILE: &str = "items.bin";
+
+/// First bytes of the file; a new layout gets a new tag.
+const MAGIC: &[u8; 16] = b"packwright-itm-1";
+
+/// How long before the stat a file's last change must lie for its stamp to
+/// vouch for what is then read. Linux stamps files from a clock that moves
+/// once a timer tick (at most 10 ms).
+const SETTLED: Duration = Duration::from_millis(100);
+
+/// The same for a file system that keeps whole seconds only (its stamps
+/// have no nanoseconds), two seconds for the coarsest (FAT).
+const SETTLED_COARSE: Duration = Duration::from_secs(2);
+
+/// The digest of everything besides an item's own file that its resolved
+/// form depends on: the build of the tool, every module's name, version,
+/// fingerprint and declaration, and every material.
+pub fn resolve_key(registry: &Registry, materials: &BTreeMap<String, Material>) -> Hash {
+    let mut h = Sha256::new();
+    let mut field = |bytes: &[u8]| {
+        h.update((bytes.len() as u64).to_le_bytes());
+        h.update(bytes);
+    };
+    field(build_identity().as_bytes());
+    for r in registry.iter() {
+        field(r.declaration.name.as_bytes());
+        field(r.fingerprint.as_deref().unwrap_or("-").as_bytes());
+        field(&postcard::to_allocvec(&r.declaration).unwrap_or_default());
+    }
+    field(&postcard::to_allocvec(materials).unwrap_or_default());
+    h.finalize().into()
+}
+
+/// What an index entry holds, besides its stamp.
+#[derive(serde::Serialize, serde::Deserialize)]
+struct Stored {
+    item: ItemFile,
+    planned: Option<PlannedItem>,
+}
+
+/// An item taken from the index.
+pub struct Reused {
+    /// The parsed item.
+    pub item: ItemFile,
+    /// Its resolved form, if it was valid when recorded; right only under
+    /// the index's [`ItemIndex::resolve_key`].
+    pub planned: Option<PlannedItem>,
+}
+
+/// The index as read from disk.
+#[derive(Default)]
+pub struct ItemIndex {
+    bytes: Vec<u8>,
+    resolve_key: Hash,
+    /// Stamp and payload range by file (relative path).
+    entries: HashMap<String, (Stamp, usize, usize)>,
+}
+
+impl ItemIndex {
+    /// The index in `cache_dir`, or an empty one when it is missing,
+    /// damaged or written by another build of the tool.
+    pub fn load(cache_dir: &Path) -> ItemIndex {
+        let bytes = std::fs::read(cache_dir.join(ITEMS_FILE)).unwrap_or_default();
+        ItemIndex::parse(bytes).unwrap_or_default()
+    }
+
+    /// Layout: the framing (see [`crate::framed`]), the resolve key, then
+    /// `[path][stamp and payload]` parts.
+    fn parse(bytes: Vec<u8>) -> Option<ItemIndex> {
+        let mut at = framed::open(&bytes, MAGIC)?;
+        let key = framed::read_part(&bytes, &mut at)?;
+        let resolve_key: Hash = bytes[key].try_into().ok()?;
+        let mut entries = HashMap::new();
+        while at < bytes.len() {
+            let rel = framed::read_part(&bytes, &mut at)?;
+            let rel = std::str::from_utf8(&bytes[rel]).ok()?;
+            let payload = framed::read_part(&bytes, &mut at)?;
+            let (stamp, rest) = postcard::take_from_bytes::<Stamp>(&bytes[payload.clone()]).ok()?;
+            entries.insert(
+                rel.to_string(),
+                (stamp, payload.end - rest.len(), payload.end),
+            );
+        }
+        Some(ItemIndex {
+            bytes,
+            resolve_key,
+            entries,
+        })
+    }
+
+    /// The key the recorded resolved forms were made under.
+    pub fn resolve_key(&self) -> Hash {
+        self.resolve_key
+    }
+
+    /// The recorded item of file `rel`, when `stamp` (taken now) is the one
+    /// it was recorded under.
+    pub fn reuse(&self, rel: &str, stamp: &Stamp) -> Option<Reused> {
+        let (recorded, start, end) = self.entries.get(rel)?;
+        if recorded != stamp {
+            return None;
+        }
+        let stored: Stored = postcard::from_bytes(self.bytes.get(*start..*end)?).ok()?;
+        // Spans and the file name are the index key's: a renamed file is
+        // another entry.
+        (&*stored.item.file == rel).then_some(Reused {
+            item: stored.item,
+            planned: stored.planned,
+        })
+    }
+
+    /// The recorded bytes of file `rel`'s entry (stamp not included).
+    fn raw(&self, rel: &str) -> Option<(&Stamp, &[u8])> {
+        let (stamp, start, end) = self.entries.get(rel)?;
+        Some((stamp, self.bytes.get(*start..*end)?))
+    }
+}
+
+/// Whether a file whose stamp was taken at `now` changed long enough
+/// before to be recorded under that stamp.
+pub fn settled(stamp: &Stamp, now: SystemTime) -> bool {
+    let (secs, nanos) = stamp.ctime();
+    let margin = if nanos == 0 { SETTLED_COARSE } else { SETTLED };
+    let (Ok(secs), Ok(nanos)) = (u64::try_from(secs), u32::try_from(nanos)) else {
+        return false;
+    };
+    let changed = UNIX_EPOCH + Duration::new(secs, 0) + Duration::from_nanos(u64::from(nanos));
+    changed + margin < now
+}
+
+/// What this run knows of the item files, for writing the index after it.
+#[derive(Default)]
+pub struct Seen {
+    /// The index read at the start (empty for `--fresh`).
+    pub index: ItemIndex,
+    /// The stamp of each item file read or reused, taken before reading;
+    /// files that had not settled and linked files are left out.
+    pub stamps: HashMap<Arc<str>, Stamp>,
+    /// Files whose item was taken from the index.
+    pub reused: std::collections::HashSet<Arc<str>>,
+    /// [`resolve_key`] of this run.
+    pub resolve_key: Hash,
+}
+
+impl Seen {
+    /// Writes the index for the items of a successful run, unless it holds
+    /// every item it could record already. Errors are ignored: a lost
+    /// index costs only time.
+    pub fn save<'a>(
+        &self,
+        cache_dir: &Path,
+        items: &[ItemFile],
+        planned: impl Fn(&str) -> Option<&'a PlannedItem>,
+    ) {
+        let same_key = self.index.resolve_key == self.resolve_key;
+        let recorded: Vec<&ItemFile> = items
+            .iter()
+            .filter(|i| self.stamps.contains_key(&i.file))
+            .collect();
+        // Entries of files gone or changed stay until there is something
+        // new to record: their stamps no longer match anything, and a
+        // one-file edit then costs no rewrite of the whole index.
+        let unchanged = same_key
+            && !self.index.bytes.is_empty()
+            && recorded.iter().all(|i| self.reused.contains(&i.file));
+        if unchanged {
+            return;
+        }
+        let Some(mut out) = framed::begin(MAGIC) else {
+            return;
+        };
+        framed::push_part(&mut out, &self.resolve_key);
+        for item in recorded {
+            let rel: &str = &item.file;
+            let stamp = &self.stamps[&item.file];
+            framed::push_part(&mut out, rel.as_bytes());
+            let kept = (same_key && self.reused.contains(&item.file))
+                .then(|| self.index.raw(rel))
+                .flatten()
+                .filter(|(s, _)| *s == stamp);
+            let payload = match kept {
+                Some((_, raw)) => {
+                    let mut p = postcard::to_allocvec(stamp).unwrap_or_default();
+                    p.extend_from_slice(raw);
+                    p
+                }
+                None => {
+                    let stored = Stored {
+                        item: item.clone(),
+                        planned: planned(&item.id).cloned(),
+                    };
+                    let (Ok(mut p), Ok(rest)) =
+                        (postcard::to_allocvec(stamp), postcard::to_allocvec(&stored))
+                    else {
+                        return;
+                    };
+                    p.extend_from_slice(&rest);
+                    p
+                }
+            };
+            framed::push_part(&mut out, &payload);
+        }
+        let out = framed::finish(out);
+        let _ = crate::fsio::write_file_unsynced(&cache_dir.join(ITEMS_FILE), &out);
+    }
+}
+
+/// Serde for [`Inputs`], whose own `Serialize` (for templates and external
+/// modules) writes spans as text and leaves structured values out: the
+/// index needs every value back exactly.
+pub(crate) mod inputs_serde {
+    use std::sync::Arc;
+
+    use packwright_api::{Dimension, Inputs, Node, Origin, ResolvedInput, Span, Value};
+    use serde::{Deserialize, Deserializer, Serialize, Serializer};
+
+    #[derive(Serialize, Deserialize)]
+    #[serde(remote = "Value")]
+    enum ValueDef {
+        Quantity { value: f64, dimension: Dimension },
+        Number(f64),
+        Count(u64),
+        Choice(String),
+        Flag(bool),
+        Material(String),
+        Structured(Node),
+    }
+
+    #[derive(Serialize, Deserialize)]
+    #[serde(remote = "Origin")]
+    enum OriginDef {
+        Item {
+            span: Span,
+        },
+        Material {
+            material: String,
+            span: Span,
+        },
+        Link {
+            item: String,
+            output: String,
+            span: Span,
+        },
+        Default,
+    }
+
+    #[derive(Serialize, Deserialize)]
+    struct StoredValue(#[serde(with = "ValueDef")] Value);
+
+    #[derive(Serialize, Deserialize)]
+    struct StoredInput(
+        #[serde(with = "ValueDef")] Value,
+        #[serde(with = "OriginDef")] Origin,
+        String,
+    );
+
+    #[derive(Serialize, Deserialize)]
+    struct StoredInputs {
+        item: String,
+        values: Vec<(String, StoredInput)>,
+        criteria: Vec<(String, StoredValue)>,
+    }
+
+    pub(crate) fn serialize<S: Serializer>(inputs: &Arc<Inputs>, s: S) -> Result<S::Ok, S::Error> {
+        StoredInputs {
+            item: inputs.item.clone(),
+            values: inputs
+                .values
+                .iter()
+                .map(|(k, r)| {
+                    let input = StoredInput(r.value.clone(), r.origin.clone(), r.written.clone());
+                    (k.clone(), input)
+                })
+                .collect(),
+            criteria: inputs
+                .criteria
+                .iter()
+                .map(|(k, v)| (k.clone(), StoredValue(v.clone())))
+                .collect(),
+        }
+        .serialize(s)
+    }
+
+    pub(crate) fn deserialize<'de, D: Deserializer<'de>>(d: D) -> Result<Arc<Inputs>, D::Error> {
+        let stored = StoredInputs::deserialize(d)?;
+        Ok(Arc::new(Inputs {
+            item: stored.item,
+            values: stored
+                .values
+                .into_iter()
+                .map(|(k, StoredInput(value, origin, written))| {
+                    let input = ResolvedInput {
+                        value,
+                        origin,
+                        written,
+                    };
+                    (k, input)
+                })
+                .collect(),
+            criteria: stored
+                .criteria
+                .into_iter()
+                .map(|(k, StoredValue(v))| (k, v))
+                .collect(),
+        }))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_damaged_index_is_empty() {
+        assert!(ItemIndex::parse(b"something else entirely".to_vec()).is_none());
+        let mut out = framed::begin(MAGIC).expect("the test binary has an identity");
+        framed::push_part(&mut out, b"a key too short");
+        assert!(ItemIndex::parse(framed::finish(out)).is_none());
+    }
+
+    #[test]
+    fn a_file_changed_just_now_has_not_settled() {
+        let dir = tempfile::tempdir().expect("temp dir");
+        let path = dir.path().join("a.yaml");
+        std::fs::write(&path, "x").expect("write");
+        let stamp = crate::index::stamp_of(&path).expect("stamp");
+        assert!(!settled(&stamp, SystemTime::now()));
+        assert!(settled(
+            &stamp,
+            SystemTime::now() + SETTLED_COARSE + Duration::from_secs(1)
+        ));
+    }
+}
