@@ -39,9 +39,7 @@ pub fn registry_for(project_root: &Path) -> Result<Registry, Vec<Diagnostic>> {
         return Ok(registry);
     }
     // A project.yaml that does not load is reported by the run itself.
-    let named = packwright_core::project::load(project_root)
-        .map(|(project, _)| project.meta.modules)
-        .unwrap_or_default();
+    let named = packwright_core::project::named_modules(project_root);
     packwright_external::register(&mut registry, project_root, &named)?;
     Ok(registry)
 }

@@ -371,6 +371,27 @@ pub struct ItemStamps {
     pub reused: HashMap<Arc<str>, Option<PlannedItem>>,
 }
 
+/// The external modules `project.yaml` names (its `modules:`), read from
+/// that file alone: the binary registers them before the project is
+/// loaded, and reading every item file for this was a sixth of a rerun.
+/// A `project.yaml` that is missing or does not load gives none; the load
+/// itself reports it.
+pub fn named_modules(root: &Path) -> Vec<String> {
+    let Ok(root) = root.canonicalize() else {
+        return Vec::new();
+    };
+    let meta_rel: Arc<str> = Arc::from("project.yaml");
+    let Ok(bytes) = read_inside(&root, &root.join("project.yaml"), &meta_rel) else {
+        return Vec::new();
+    };
+    let Ok(Some(node)) = yaml::parse_bytes(&meta_rel, &bytes) else {
+        return Vec::new();
+    };
+    parse_meta(&node, &mut Diagnostics::default())
+        .map(|meta| meta.modules)
+        .unwrap_or_default()
+}
+
 /// [`load`], taking the item of each item file whose stamp is unchanged
 /// from `index` instead of reading and parsing the file (see
 /// [`crate::item_index`]). Materials and `project.yaml` are always read.

@@ -200,6 +200,10 @@ fn typeset(
         &data.method_contents(),
         &setting,
     )?;
+    // The layout is done: Typst's memoised intermediate results are not
+    // needed for the PDF (the pages hold their frames), and dropping them
+    // here lowers the build's peak memory, which is reached in the export.
+    comemo::evict(0);
     let started = Instant::now();
     let timestamp = Datetime::from_ymd_hms(
         today.year().unwrap_or(2000),
