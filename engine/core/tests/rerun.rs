@@ -339,6 +339,16 @@ fn settled_project() -> tempfile::TempDir {
     dir
 }
 
+/// A settled project run twice: every item is then in the item index,
+/// and a third run reads no item file.
+fn indexed_project(registry: &Registry) -> tempfile::TempDir {
+    let dir = settled_project();
+    run_reading(dir.path(), registry);
+    let (_, read) = run_reading(dir.path(), registry);
+    assert!(read.is_empty(), "nothing read again: {read:?}");
+    dir
+}
+
 #[test]
 fn unchanged_items_are_taken_from_the_item_index_and_give_the_same_bytes() {
     let dir = settled_project();
@@ -362,12 +372,9 @@ fn unchanged_items_are_taken_from_the_item_index_and_give_the_same_bytes() {
 
 #[test]
 fn the_item_index_sees_an_edit_that_keeps_size_and_modification_time() {
-    let dir = settled_project();
-    let root = dir.path();
     let registry = registry();
-    run_reading(root, &registry);
-    let (_, read) = run_reading(root, &registry);
-    assert!(read.is_empty());
+    let dir = indexed_project(&registry);
+    let root = dir.path();
     edit_keeping_size_and_mtime(&root.join("items/a.yaml"), "2.0 m/s", "2.5 m/s");
     let (one, read) = run_reading(root, &registry);
     assert_eq!(read, ["items/a.yaml"]);
@@ -382,10 +389,8 @@ fn the_item_index_sees_an_edit_that_keeps_size_and_modification_time() {
 
 #[test]
 fn a_changed_module_declaration_reaches_reused_items() {
-    let dir = settled_project();
+    let dir = indexed_project(&registry());
     let root = dir.path();
-    run_reading(root, &registry());
-    run_reading(root, &registry());
     // Same name and version, another default: no item file changed, but
     // every item that takes the default must see it.
     let mut other = Registry::new();
@@ -405,11 +410,9 @@ fn a_changed_module_declaration_reaches_reused_items() {
 
 #[test]
 fn a_reused_item_whose_link_target_is_gone_is_refused() {
-    let dir = settled_project();
-    let root = dir.path();
     let registry = registry();
-    run_reading(root, &registry);
-    run_reading(root, &registry);
+    let dir = indexed_project(&registry);
+    let root = dir.path();
     fs::remove_file(root.join("items/a.yaml")).expect("rm");
     let Err(err) = packwright_core::run_project(root, &registry, RunOptions::default()) else {
         panic!("B links to a missing item");
