@@ -73,9 +73,8 @@ pub struct Setting<'a> {
 pub struct Composed {
     /// The whole document.
     pub document: PagedDocument,
-    /// A single Typst source of the whole package that typesets on its
-    /// own, written beside the PDF for whoever wants to read or rerun it.
-    pub standalone: String,
+    /// The contents lines with their pages, for [`standalone`].
+    pub contents: Vec<ContentsRow>,
     /// How many Typst documents were compiled (parts, front passes,
     /// furniture).
     pub compiles: usize,
@@ -479,10 +478,25 @@ pub fn compose(
     let info = opening_doc.info().clone();
     let document = PagedDocument::new(pages.into_iter().collect(), info);
 
-    // The standalone source: the same pieces, one document.
+    Ok(Composed {
+        document,
+        contents: rows,
+        compiles,
+        compile_time: started.elapsed(),
+    })
+}
+
+/// A single Typst source of the whole package that typesets on its own,
+/// written beside the PDF for whoever wants to read or rerun it: the same
+/// pieces as the parts, one document, with `contents` as laid out.
+pub fn standalone(
+    templates: &Templates,
+    rendered: &Rendered,
+    contents: &[ContentsRow],
+) -> Result<String, ReportError> {
     let final_front = {
         let mut json = rendered.json.clone();
-        json["contents"] = serde_json::to_value(&rows).unwrap_or_default();
+        json["contents"] = serde_json::to_value(contents).unwrap_or_default();
         templates
             .render_front(&json)
             .map_err(ReportError::Template)?
@@ -496,14 +510,7 @@ pub fn compose(
     pieces.extend(rendered.methods.iter());
     pieces.extend(rendered.items.iter());
     pieces.push(&rendered.references);
-    let (standalone, _) = assemble(STANDALONE_HEAD, &pieces);
-
-    Ok(Composed {
-        document,
-        standalone,
-        compiles,
-        compile_time: started.elapsed(),
-    })
+    Ok(assemble(STANDALONE_HEAD, &pieces).0)
 }
 
 /// The page furniture of a package of `total` pages, as one source per

@@ -223,7 +223,12 @@ fn typeset(
         timestamp,
         ..Default::default()
     };
-    let pdf = typst_pdf::pdf(&composed.document, &options).map_err(|errors| {
+    // The PDF and the standalone source are independent: made side by side.
+    let (pdf, source) = rayon::join(
+        || typst_pdf::pdf(&composed.document, &options),
+        || compose::standalone(templates, rendered, &composed.contents),
+    );
+    let pdf = pdf.map_err(|errors| {
         ReportError::Data(format!(
             "the PDF could not be written: {}",
             errors
@@ -235,7 +240,7 @@ fn typeset(
     Ok(Typeset {
         pdf,
         pages: composed.document.pages().len(),
-        source: composed.standalone,
+        source: source?,
         compiles: composed.compiles,
         compile: composed.compile_time,
         write: started.elapsed(),
