@@ -333,6 +333,17 @@ fn method_title_of(decl: &packwright_api::ModuleDeclaration) -> String {
     format!("Method statement: {} {}", decl.name, decl.version)
 }
 
+/// A module's method steps as the templates see them.
+fn method_rows(decl: &packwright_api::ModuleDeclaration) -> Vec<MethodRow> {
+    decl.method
+        .iter()
+        .map(|m| MethodRow {
+            text: m.text.clone(),
+            equation: m.equation.clone(),
+        })
+        .collect()
+}
+
 /// A module's method statement, from its declaration.
 fn method_statement(
     reg: &packwright_core::registry::Registered,
@@ -350,14 +361,7 @@ fn method_statement(
         label: method_label_of(&decl.name),
         title: method_title_of(decl),
         items: Vec::new(),
-        method: decl
-            .method
-            .iter()
-            .map(|m| MethodRow {
-                text: m.text.clone(),
-                equation: m.equation.clone(),
-            })
-            .collect(),
+        method: method_rows(decl),
         inputs: decl
             .inputs
             .iter()
@@ -647,14 +651,7 @@ pub fn build(
             inputs_digest: run.inputs_digest.clone(),
             inputs,
             criteria,
-            method: decl
-                .method
-                .iter()
-                .map(|m| MethodRow {
-                    text: m.text.clone(),
-                    equation: m.equation.clone(),
-                })
-                .collect(),
+            method: method_rows(decl),
             outputs,
             any_fail: !failed.is_empty(),
             checks,
