@@ -1,6 +1,7 @@
-//! Typesetting a package part by part: the front matter, each item's
-//! section and the references are compiled as Typst documents of their
-//! own, two at a time on the machine's cores, then their pages are put
+//! Typesetting a package part by part: the front matter (in three parts:
+//! before the contents, the contents, after it), each method statement,
+//! each item's section and the references are compiled as Typst documents
+//! of their own, two at a time on the machine's cores, then their pages are put
 //! together into one document, the page furniture (header, footer, stale
 //! banner) is laid over every page, and the cross-references between parts
 //! are pointed at the pages they name.
@@ -17,8 +18,9 @@
 //! numbers come from the package data); the contents and the page total
 //! are filled in after the parts are laid out; links between parts are
 //! written as `go to ...` addresses and pointed at their page here.
-//! The front matter is typeset again with the real page numbers, until its
-//! own length no longer changes.
+//! The contents is typeset first with placeholder page numbers as wide as
+//! the real ones, then again alone with the real numbers (and again while
+//! its own length changes), beside the page furniture.
 //!
 //! Depends on the templates' pieces and the sandboxed world; names no
 //! module.
@@ -50,8 +52,8 @@ pub const XREF_SCHEME: &str = "go to ";
 /// Every part leaves header, footer and banner to the furniture layer.
 const NO_FURNITURE: &str = "#set page(header: none, footer: none, foreground: none)\n";
 
-/// The most times the front matter is typeset while its page count
-/// settles (it settles on the second in practice).
+/// The most times the contents is typeset while its page count settles
+/// (the placeholder numbers make the second the last in practice).
 const FRONT_PASSES: usize = 4;
 
 /// How many evictions a memoised Typst result survives unused. Typst keeps
@@ -224,7 +226,8 @@ pub fn compose(
 
     // The sources of the first round: the opening pages, the contents with
     // placeholder numbers, the rest of the front matter, the method
-    // statements, the item sections a few to a part, and the references.
+    // statements, the item sections (`ITEMS_PER_PART` to a part), and the
+    // references.
     fn with_page_setting<'p>(
         preamble: &'p Piece,
         page_setting: &'p Piece,
