@@ -179,12 +179,6 @@ fn label_position(document: &PagedDocument, label: &str) -> Option<PagedPosition
     introspector.position(content.location()?)
 }
 
-/// How many item sections go into one part. Parts of 1, 4, 10 and 25
-/// sections took the same processor time on the 100-item bench (Typst's
-/// fixed cost per part is small), and the peak memory grew with the size
-/// of a part (2026-12-02: 337, 355, 402 and 510 MiB), so one.
-const ITEMS_PER_PART: usize = 1;
-
 /// The number of the front-matter templates that come before the
 /// contents (cover, revision history, sign-off): they are one part, the
 /// contents another, and the rest of the front matter a third, so that
@@ -226,8 +220,10 @@ pub fn compose(
 
     // The sources of the first round: the opening pages, the contents with
     // placeholder numbers, the rest of the front matter, the method
-    // statements, the item sections (`ITEMS_PER_PART` to a part), and the
-    // references.
+    // statements, each item section, and the references. One item to a
+    // part: parts of 1, 4, 10 and 25 items took the same processor time on
+    // the 100-item bench, and the peak memory grew with the size of a part
+    // (2026-12-02: 337, 355, 402 and 510 MiB).
     fn with_page_setting<'p>(
         preamble: &'p Piece,
         page_setting: &'p Piece,
@@ -262,25 +258,15 @@ pub fn compose(
         .collect();
     let mut item_sources = Vec::new();
     let mut figures_before = 0;
-    for (group, pieces) in rendered.items.chunks(ITEMS_PER_PART).enumerate() {
-        let first = group * ITEMS_PER_PART;
+    for (index, piece) in rendered.items.iter().enumerate() {
         let counters = glue(format!(
-            "{NO_FURNITURE}#counter(heading).update({first})\n#counter(figure.where(kind: image)).update({figures_before})\n"
+            "{NO_FURNITURE}#counter(heading).update({index})\n#counter(figure.where(kind: image)).update({figures_before})\n"
         ));
-        figures_before += figures_per_item[first.min(figures_per_item.len())..]
-            .iter()
-            .take(pieces.len())
-            .sum::<usize>();
-        let mut all = vec![&rendered.preamble, &counters];
-        all.extend(pieces.iter());
+        figures_before += figures_per_item.get(index).copied().unwrap_or(0);
         item_sources.push(part_source(
-            format!("sections-{:04}.typ", first + 1),
-            &format!(
-                "sections {} to {} of the package",
-                first + 1,
-                first + pieces.len()
-            ),
-            &all,
+            format!("section-{:04}.typ", index + 1),
+            &format!("section {} of the package", index + 1),
+            &[&rendered.preamble, &counters, piece],
         ));
     }
     let references_source = part_source(
@@ -337,45 +323,28 @@ pub fn compose(
     let item_docs: Vec<PagedDocument> = rest.collect();
 
     // Where every labelled section starts, counted from the first page
-    // after the contents; the contents lines follow from it.
+    // after the contents; the contents lines and the link targets follow.
     let mut sections_after: Vec<(ContentsRow, PagedPosition)> = Vec::new();
     let mut offset = closing_doc.pages().len();
-    let mut targets_after: HashMap<String, PagedPosition> = HashMap::new();
-    let locate = |document: &PagedDocument,
-                  rows: &[ContentsRow],
-                  offset: usize,
-                  out: &mut Vec<(ContentsRow, PagedPosition)>| {
-        for row in rows {
-            let label = row.target.trim_start_matches("label:");
-            if let Some(position) = label_position(document, label) {
-                out.push((
-                    row.clone(),
-                    PagedPosition {
-                        page: position.page.saturating_add(offset),
-                        point: position.point,
-                    },
-                ));
-            }
+    for (document, row) in method_docs
+        .iter()
+        .zip(method_rows)
+        .chain(item_docs.iter().zip(item_rows))
+    {
+        let label = row.target.trim_start_matches("label:");
+        if let Some(position) = label_position(document, label) {
+            sections_after.push((
+                row.clone(),
+                PagedPosition {
+                    page: position.page.saturating_add(offset),
+                    point: position.point,
+                },
+            ));
         }
-    };
-    for (document, row) in method_docs.iter().zip(method_rows) {
-        locate(
-            document,
-            std::slice::from_ref(row),
-            offset,
-            &mut sections_after,
-        );
-        offset += document.pages().len();
-    }
-    for (document, rows) in item_docs.iter().zip(item_rows.chunks(ITEMS_PER_PART)) {
-        locate(document, rows, offset, &mut sections_after);
         offset += document.pages().len();
     }
     let references_start = offset;
     let after_pages = offset + references.pages().len();
-    for (row, position) in &sections_after {
-        targets_after.insert(row.target.clone(), *position);
-    }
     let opening_rows = front_sections(&opening_doc);
     let closing_rows = front_sections(&closing_doc);
     let references_rows = front_sections(&references);
@@ -445,11 +414,11 @@ pub fn compose(
         pages.extend(document.pages().iter().cloned());
     }
     let total = pages.len();
-    let targets: HashMap<String, PagedPosition> = targets_after
-        .into_iter()
-        .map(|(target, position)| {
+    let targets: HashMap<String, PagedPosition> = sections_after
+        .iter()
+        .map(|(row, position)| {
             (
-                target,
+                row.target.clone(),
                 PagedPosition {
                     page: position.page.saturating_add(before),
                     point: position.point,

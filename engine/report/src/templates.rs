@@ -270,7 +270,7 @@ impl Templates {
         }
         // Items are rendered in parallel: a large package spent a tenth of
         // its build here on one core.
-        let rows = json["items"].as_array().cloned().unwrap_or_default();
+        let rows: &[Json] = json["items"].as_array().map_or(&[], Vec::as_slice);
         let items = rows
             .par_iter()
             .zip(data.item_modules())
