@@ -60,9 +60,15 @@ pub fn packwright(cwd: &Path, args: &[&str]) -> Ran {
     }
 }
 
-/// The repository's root folder.
+/// The repository's root folder. Taken from the variable cargo sets when
+/// it runs a test, before the one fixed at compile time: a shared target
+/// folder (as `.ci/run` keeps) may hold this crate built from a checkout at
+/// another path, and cargo does not rebuild it for a moved checkout.
 pub fn repo_root() -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
+    let manifest_dir = std::env::var_os("CARGO_MANIFEST_DIR")
+        .map(PathBuf::from)
+        .unwrap_or_else(|| PathBuf::from(env!("CARGO_MANIFEST_DIR")));
+    manifest_dir
         .parent()
         .expect("tests/ is in the repo")
         .to_path_buf()

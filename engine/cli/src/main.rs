@@ -124,7 +124,6 @@ pub(crate) enum Command {
 }
 
 fn main() -> ExitCode {
-    packwright::allocator::return_memory_promptly();
     let cli = match Cli::try_parse() {
         Ok(cli) => cli,
         Err(e) => {
@@ -133,6 +132,11 @@ fn main() -> ExitCode {
             return ExitCode::from(code);
         }
     };
+    // Typesetting is where the memory peaks; elsewhere returning memory at
+    // once only costs time (see `allocator`).
+    if matches!(cli.command, Command::Build { .. }) {
+        packwright::allocator::return_memory_promptly();
+    }
     let out = commands::Output {
         quiet: cli.quiet,
         verbose: cli.verbose,

@@ -181,22 +181,38 @@ impl Index {
 /// premise); the rest of the file is the item's id, module, title and the
 /// words for where each input came from, which the digest leaves out.
 pub fn result_key(run: &ItemRun) -> Hash {
+    let origins = match &run.item.own_digests {
+        Some(own) => own.origins,
+        None => origins_digest(&run.inputs),
+    };
+    let mut h = Sha256::new();
+    let mut field = |s: &[u8]| {
+        h.update((s.len() as u64).to_le_bytes());
+        h.update(s);
+    };
+    field(RESULTS_FORMAT.as_bytes());
+    field(run.item.id.as_bytes());
+    field(run.item.module.as_bytes());
+    field(run.module_version.as_bytes());
+    field(run.item.title.as_bytes());
+    field(run.inputs_digest.as_bytes());
+    field(&origins);
+    h.finalize().into()
+}
+
+/// The digest of the names and origins of resolved inputs (their values are
+/// in the inputs digest): with it, a result file's key.
+pub fn origins_digest(inputs: &packwright_api::Inputs) -> Hash {
     let mut h = Sha256::new();
     let mut field = |s: &str| {
         h.update((s.len() as u64).to_le_bytes());
         h.update(s.as_bytes());
     };
-    field(RESULTS_FORMAT);
-    field(&run.item.id);
-    field(&run.item.module);
-    field(&run.module_version);
-    field(&run.item.title);
-    field(&run.inputs_digest);
-    for (name, input) in &run.inputs.values {
+    for (name, input) in &inputs.values {
         field(name);
         field(&crate::results::origin_words(&input.origin));
     }
-    for name in run.inputs.criteria.keys() {
+    for name in inputs.criteria.keys() {
         field(name);
     }
     h.finalize().into()

@@ -40,7 +40,7 @@ use crate::resolve::PlannedItem;
 pub const ITEMS_FILE: &str = "items.bin";
 
 /// First bytes of the file; a new layout gets a new tag.
-const MAGIC: &[u8; 16] = b"packwright-itm-1";
+const MAGIC: &[u8; 16] = b"packwright-itm-2";
 
 /// How long before the stat a file's last change must lie for its stamp to
 /// vouch for what is then read. Linux stamps files from a clock that moves
@@ -244,14 +244,14 @@ impl Seen {
     }
 }
 
-/// Serde for [`Inputs`], whose own `Serialize` (for templates and external
-/// modules) writes spans as text and leaves structured values out: the
-/// index needs every value back exactly.
-pub(crate) mod inputs_serde {
-    use std::sync::Arc;
-
+/// The stored form of [`Inputs`], whose own `Serialize` (for templates and
+/// external modules) writes spans as text and leaves structured values
+/// out: the index needs every value back exactly.
+mod stored_inputs {
     use packwright_api::{Dimension, Inputs, Node, Origin, ResolvedInput, Span, Value};
-    use serde::{Deserialize, Deserializer, Serialize, Serializer};
+    use serde::{Deserialize, Serialize};
+
+    use crate::deferred::StoredForm;
 
     #[derive(Serialize, Deserialize)]
     #[serde(remote = "Value")]
@@ -300,48 +300,51 @@ pub(crate) mod inputs_serde {
         criteria: Vec<(String, StoredValue)>,
     }
 
-    pub(crate) fn serialize<S: Serializer>(inputs: &Arc<Inputs>, s: S) -> Result<S::Ok, S::Error> {
-        StoredInputs {
-            item: inputs.item.clone(),
-            values: inputs
-                .values
-                .iter()
-                .map(|(k, r)| {
-                    let input = StoredInput(r.value.clone(), r.origin.clone(), r.written.clone());
-                    (k.clone(), input)
-                })
-                .collect(),
-            criteria: inputs
-                .criteria
-                .iter()
-                .map(|(k, v)| (k.clone(), StoredValue(v.clone())))
-                .collect(),
+    impl StoredForm for Inputs {
+        fn encode(&self) -> Vec<u8> {
+            let stored = StoredInputs {
+                item: self.item.clone(),
+                values: self
+                    .values
+                    .iter()
+                    .map(|(k, r)| {
+                        let input =
+                            StoredInput(r.value.clone(), r.origin.clone(), r.written.clone());
+                        (k.clone(), input)
+                    })
+                    .collect(),
+                criteria: self
+                    .criteria
+                    .iter()
+                    .map(|(k, v)| (k.clone(), StoredValue(v.clone())))
+                    .collect(),
+            };
+            postcard::to_allocvec(&stored).expect("inputs encode")
         }
-        .serialize(s)
-    }
 
-    pub(crate) fn deserialize<'de, D: Deserializer<'de>>(d: D) -> Result<Arc<Inputs>, D::Error> {
-        let stored = StoredInputs::deserialize(d)?;
-        Ok(Arc::new(Inputs {
-            item: stored.item,
-            values: stored
-                .values
-                .into_iter()
-                .map(|(k, StoredInput(value, origin, written))| {
-                    let input = ResolvedInput {
-                        value,
-                        origin,
-                        written,
-                    };
-                    (k, input)
-                })
-                .collect(),
-            criteria: stored
-                .criteria
-                .into_iter()
-                .map(|(k, StoredValue(v))| (k, v))
-                .collect(),
-        }))
+        fn decode(bytes: &[u8]) -> Result<Inputs, postcard::Error> {
+            let stored: StoredInputs = postcard::from_bytes(bytes)?;
+            Ok(Inputs {
+                item: stored.item,
+                values: stored
+                    .values
+                    .into_iter()
+                    .map(|(k, StoredInput(value, origin, written))| {
+                        let input = ResolvedInput {
+                            value,
+                            origin,
+                            written,
+                        };
+                        (k, input)
+                    })
+                    .collect(),
+                criteria: stored
+                    .criteria
+                    .into_iter()
+                    .map(|(k, StoredValue(v))| (k, v))
+                    .collect(),
+            })
+        }
     }
 }
 

@@ -12,6 +12,7 @@
 //! This crate names no module: modules arrive through a [`Registry`].
 
 pub mod cache;
+pub mod deferred;
 pub mod diagnostic;
 pub mod diff;
 pub mod display;

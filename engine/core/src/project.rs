@@ -13,6 +13,7 @@ use packwright_api::{Node, NodeValue, Span, UnitSystem};
 use rayon::prelude::*;
 use walkdir::WalkDir;
 
+use crate::deferred::{Deferred, StoredForm};
 use crate::diagnostic::{Diagnostic, Diagnostics};
 use crate::index::Stamp;
 use crate::item_index::{ItemIndex, Reused};
@@ -107,16 +108,34 @@ pub struct ItemFile {
     pub module_span: Span,
     /// The title.
     pub title: String,
-    /// Inputs as written: key node and value node.
-    pub inputs: Vec<(Node, Node)>,
-    /// Where `inputs:` stands (or the file start).
-    pub inputs_span: Span,
-    /// Criteria overrides as written.
-    pub criteria: Vec<(Node, Node)>,
+    /// Inputs and criteria as written; for an item taken from the item
+    /// index, decoded only when an item must be resolved again.
+    pub written: Deferred<WrittenInputs>,
     /// Free text for the package.
     pub notes: Option<String>,
     /// The file, relative to the root.
     pub file: Arc<str>,
+}
+
+/// An item's inputs and criteria as written in its file.
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct WrittenInputs {
+    /// Inputs: key node and value node.
+    pub inputs: Vec<(Node, Node)>,
+    /// Where `inputs:` stands (or the file start).
+    pub inputs_span: Span,
+    /// Criteria overrides.
+    pub criteria: Vec<(Node, Node)>,
+}
+
+impl StoredForm for WrittenInputs {
+    fn encode(&self) -> Vec<u8> {
+        postcard::to_allocvec(self).expect("nodes encode")
+    }
+
+    fn decode(bytes: &[u8]) -> Result<WrittenInputs, postcard::Error> {
+        postcard::from_bytes(bytes)
+    }
 }
 
 /// A loaded project.
@@ -942,14 +961,16 @@ fn parse_item(node: &Node, file: Arc<str>, out: &mut Diagnostics) -> Option<Item
         module: module?,
         title: title.unwrap_or_else(|| id.clone()),
         id,
-        // The `inputs` key itself: a missing input is reported there.
-        inputs_span: node
-            .as_map()
-            .and_then(|entries| entries.iter().find(|(k, _)| k.as_text() == Some("inputs")))
-            .map(|(k, _)| k.span.clone())
-            .unwrap_or_else(|| node.span.clone()),
-        inputs,
-        criteria,
+        written: Deferred::new(WrittenInputs {
+            // The `inputs` key itself: a missing input is reported there.
+            inputs_span: node
+                .as_map()
+                .and_then(|entries| entries.iter().find(|(k, _)| k.as_text() == Some("inputs")))
+                .map(|(k, _)| k.span.clone())
+                .unwrap_or_else(|| node.span.clone()),
+            inputs,
+            criteria,
+        }),
         notes,
         file,
     })

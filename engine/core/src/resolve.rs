@@ -14,6 +14,7 @@ use packwright_api::{
 
 use rayon::prelude::*;
 
+use crate::deferred::Deferred;
 use crate::diagnostic::{Diagnostic, Diagnostics};
 use crate::project::{did_you_mean, ItemFile, Project};
 use crate::registry::Registry;
@@ -47,13 +48,28 @@ pub struct PlannedItem {
     /// The file.
     pub file: std::sync::Arc<str>,
     /// Resolved inputs and criteria (links not yet filled); shared with
-    /// the run of an item without links rather than copied.
-    #[serde(with = "crate::item_index::inputs_serde")]
-    pub inputs: std::sync::Arc<Inputs>,
+    /// the run of an item without links rather than copied, and, for an
+    /// item taken from the item index, decoded when first looked at.
+    pub inputs: Deferred<Inputs>,
     /// Links to fill before computing.
     pub links: Vec<Link>,
     /// The material used, if any: (input name, material id).
     pub materials: Vec<(String, String)>,
+    /// For an item without links, its digests, which then depend on its
+    /// file, module and materials alone.
+    pub own_digests: Option<OwnDigests>,
+}
+
+/// The digests of an item without links, taken when it is resolved and
+/// kept in the item index with it, so that a rerun keys the item's cache
+/// entry and result file without decoding its inputs.
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct OwnDigests {
+    /// The inputs digest (see [`crate::run::digest`]).
+    pub inputs: String,
+    /// The digest of the inputs' names and origins (see
+    /// [`crate::index::origins_digest`]).
+    pub origins: crate::index::Hash,
 }
 
 /// The items in an order where every item comes after those it links to,
@@ -81,7 +97,7 @@ fn diag_from_calc(err: CalcError, item: &ItemFile) -> Diagnostic {
             message,
             expected,
         } => Diagnostic::new(
-            Some(span.unwrap_or_else(|| item.inputs_span.clone())),
+            Some(span.unwrap_or_else(|| item.written.inputs_span.clone())),
             format!("item `{}`, input `{input}`: {message}", item.id),
         )
         .expected(expected),
@@ -229,7 +245,7 @@ fn resolve_item(
     let mut written_bad: BTreeSet<String> = BTreeSet::new();
     let mut material_failed = false;
 
-    for (key, node) in &item.inputs {
+    for (key, node) in &item.written.inputs {
         let name = key.as_text().unwrap_or_default();
         let Some(spec) = decl.input(name) else {
             let mut d = Diagnostic::new(
@@ -395,7 +411,7 @@ fn resolve_item(
             Need::Required if written_bad.contains(&spec.name) || material_failed => {}
             Need::Required => out.push(
                 Diagnostic::new(
-                    Some(item.inputs_span.clone()),
+                    Some(item.written.inputs_span.clone()),
                     format!(
                         "item `{}` lacks the required input `{}` ({})",
                         item.id, spec.name, spec.meaning
@@ -413,7 +429,7 @@ fn resolve_item(
     // Criteria overrides and defaults.
     let mut criteria = BTreeMap::new();
     let criterion_names: Vec<&str> = decl.criteria.iter().map(|c| c.name.as_str()).collect();
-    for (key, node) in &item.criteria {
+    for (key, node) in &item.written.criteria {
         let name = key.as_text().unwrap_or_default();
         let Some(c) = decl.criterion(name) else {
             let mut d = Diagnostic::new(
@@ -476,6 +492,16 @@ fn resolve_item(
             out.push(diag_from_calc(e, item));
         }
     }
+    let own_digests = links.is_empty().then(|| OwnDigests {
+        inputs: crate::run::digest(
+            &inputs,
+            decl,
+            registry
+                .get(&decl.name)
+                .and_then(|r| r.fingerprint.as_deref()),
+        ),
+        origins: crate::index::origins_digest(&inputs),
+    });
     let planned = PlannedItem {
         id: item.id.clone(),
         module: decl.name.clone(),
@@ -485,6 +511,7 @@ fn resolve_item(
         inputs: inputs.into(),
         links,
         materials,
+        own_digests,
     };
     (planned, out.0.len() == before)
 }
@@ -650,7 +677,7 @@ pub fn plan_reusing(
             items.insert(planned.id.clone(), std::sync::Arc::new(planned));
         }
     }
-    let levels = order(project, &mut out);
+    let levels = order(project, &items, &mut out);
     if out.is_empty() {
         Ok(Plan { items, levels })
     } else {
@@ -660,17 +687,31 @@ pub fn plan_reusing(
 }
 
 /// Orders items by their links (ties broken by id) into levels; a cycle is
-/// reported with every item on it.
-fn order(project: &Project, out: &mut Diagnostics) -> Vec<Vec<String>> {
+/// reported with every item on it. The links of a resolved item are taken
+/// from `planned`, so that the inputs as written of an item taken from the
+/// item index are not decoded; an item that failed to resolve is read.
+fn order(
+    project: &Project,
+    planned: &BTreeMap<String, std::sync::Arc<PlannedItem>>,
+    out: &mut Diagnostics,
+) -> Vec<Vec<String>> {
     let ids: BTreeSet<&str> = project.items.iter().map(|i| i.id.as_str()).collect();
     let mut deps: BTreeMap<&str, BTreeSet<&str>> = BTreeMap::new();
     for item in &project.items {
         let entry = deps.entry(item.id.as_str()).or_default();
-        for (_, node) in &item.inputs {
-            if let Some(Ok((target, _, _, _))) = link_of(node) {
-                if let Some(t) = ids.get(target.as_str()) {
-                    if *t != item.id {
-                        entry.insert(t);
+        let mut depend_on = |target: &str| {
+            if let Some(t) = ids.get(target) {
+                if *t != item.id {
+                    entry.insert(t);
+                }
+            }
+        };
+        match planned.get(&item.id).filter(|p| p.file == item.file) {
+            Some(p) => p.links.iter().for_each(|l| depend_on(&l.item)),
+            None => {
+                for (_, node) in &item.written.inputs {
+                    if let Some(Ok((target, _, _, _))) = link_of(node) {
+                        depend_on(&target);
                     }
                 }
             }

@@ -15,6 +15,7 @@ use packwright_api::{
 use rayon::prelude::*;
 use sha2::{Digest, Sha256};
 
+use crate::deferred::Deferred;
 use crate::registry::Registry;
 use crate::resolve::{Plan, PlannedItem};
 
@@ -25,7 +26,7 @@ pub struct ItemRun {
     pub item: Arc<PlannedItem>,
     /// The inputs with links filled (the plan entry's own, shared, when it
     /// has no links).
-    pub inputs: Arc<Inputs>,
+    pub inputs: Deferred<Inputs>,
     /// The module version that ran.
     pub module_version: String,
     /// Digest of the resolved inputs, module and tool version.
@@ -318,13 +319,13 @@ pub fn verify_outcome(
     Ok(())
 }
 
-fn fill_links(item: &PlannedItem, done: &BTreeMap<String, ItemRun>) -> Option<Arc<Inputs>> {
+fn fill_links(item: &PlannedItem, done: &BTreeMap<String, ItemRun>) -> Option<Deferred<Inputs>> {
     let mut inputs = item.inputs.clone();
     for link in &item.links {
         let source = done.get(&link.item)?;
         let m: &Measure = source.outcome.output(&link.output)?;
         let value = Value::from_si(m.value, m.dimension);
-        Arc::make_mut(&mut inputs).values.insert(
+        inputs.make_mut().values.insert(
             link.input.clone(),
             ResolvedInput {
                 value,
@@ -371,7 +372,10 @@ pub fn run_with_progress(
                 .get(&item.module)
                 .expect("planned items have modules");
             let decl = &registered.declaration;
-            let digest = digest(&inputs, decl, registered.fingerprint.as_deref());
+            let digest = match &item.own_digests {
+                Some(own) => own.inputs.clone(),
+                None => digest(&inputs, decl, registered.fingerprint.as_deref()),
+            };
             let cached = store.and_then(|s| s.get(&digest));
             let from_cache = cached.is_some();
             let outcome = match cached {

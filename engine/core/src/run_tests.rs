@@ -199,15 +199,17 @@ fn two_item_run(fault: Fault) -> super::RunOutcome {
         title: id.into(),
         notes: None,
         file: Arc::from(format!("{id}.yaml")),
-        inputs: Arc::new(Inputs {
+        inputs: Inputs {
             item: id.into(),
             ..inputs(2.0)
-        }),
+        }
+        .into(),
         links: vec![],
         materials: vec![],
+        own_digests: None,
     };
     let mut next = item("NEXT");
-    Arc::make_mut(&mut next.inputs).values.remove("speed");
+    next.inputs.make_mut().values.remove("speed");
     next.links.push(Link {
         input: "speed".into(),
         item: "FAKE-1".into(),

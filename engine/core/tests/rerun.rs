@@ -371,6 +371,34 @@ fn unchanged_items_are_taken_from_the_item_index_and_give_the_same_bytes() {
 }
 
 #[test]
+fn a_rerun_decodes_nothing_of_an_unchanged_item_without_links() {
+    let registry = registry();
+    let dir = indexed_project(&registry);
+    let root = dir.path();
+    fs::write(root.join("items/a.yaml"), item("A", "speed: 2.5 m/s")).expect("write");
+    let (project, one) =
+        packwright_core::run_project(root, &registry, RunOptions::default()).expect("runs");
+    assert_eq!(computed(&one), ["A", "B", "C"]);
+    let decoded = |id: &str| {
+        let written = project.items.iter().find(|i| i.id == id).expect("item");
+        (
+            written.written.is_decoded(),
+            one.items[id].inputs.is_decoded(),
+        )
+    };
+    // D and E: keyed from their stored digests, their results files kept.
+    assert_eq!(decoded("D"), (false, false));
+    assert_eq!(decoded("E"), (false, false));
+    // A was read again; B and C took a changed value through their links.
+    assert_eq!(decoded("A"), (true, true));
+    assert!(decoded("B").1 && decoded("C").1);
+    assert_eq!(results(root), fresh_results(root));
+    // Looked at later (as a package build does), they read back whole.
+    assert_eq!(one.items["D"].inputs.values["speed"].written, "3.0 m/s");
+    assert_eq!(one.items["E"].inputs.values["material"].written, "ore");
+}
+
+#[test]
 fn the_item_index_sees_an_edit_that_keeps_size_and_modification_time() {
     let registry = registry();
     let dir = indexed_project(&registry);

@@ -1,0 +1,181 @@
+//! [`Deferred`]: a value kept in its stored form until something looks at
+//! it. A rerun takes most items from the item index and looks at few of
+//! their inputs (only those of items whose links it fills or whose result
+//! files it writes); decoding every item's inputs and nodes, and dropping
+//! them again, was most of a rerun's time.
+
+use std::sync::{Arc, OnceLock};
+
+/// How a type is written into the item index and read back.
+pub trait StoredForm: Sized {
+    /// The stored bytes of a value.
+    fn encode(&self) -> Vec<u8>;
+    /// The value back from [`StoredForm::encode`]'s bytes.
+    fn decode(bytes: &[u8]) -> Result<Self, postcard::Error>;
+}
+
+/// A value, or the bytes it is decoded from when first looked at. Clones
+/// share the value (or the bytes and, once decoded, the value).
+pub struct Deferred<T>(Arc<Inner<T>>);
+
+struct Inner<T> {
+    value: OnceLock<T>,
+    /// The stored form, for a value read from the index.
+    stored: Option<Box<[u8]>>,
+}
+
+impl<T> Deferred<T> {
+    /// A value at hand.
+    pub fn new(value: T) -> Deferred<T> {
+        Deferred(Arc::new(Inner {
+            value: OnceLock::from(value),
+            stored: None,
+        }))
+    }
+
+    /// Whether the value has been decoded (or was never stored); for tests
+    /// that check a rerun looks at no more than it must.
+    pub fn is_decoded(&self) -> bool {
+        self.0.value.get().is_some()
+    }
+}
+
+impl<T: StoredForm> Deferred<T> {
+    /// The stored bytes are trusted as [`StoredForm::encode`] of this build
+    /// wrote them: the item index is checksummed and headed by the build's
+    /// identity.
+    /// The stored form: the bytes read, or the value encoded.
+    fn stored_form(&self) -> std::borrow::Cow<'_, [u8]> {
+        match (&self.0.stored, self.0.value.get()) {
+            (Some(bytes), _) => std::borrow::Cow::Borrowed(bytes),
+            (None, Some(value)) => std::borrow::Cow::Owned(value.encode()),
+            (None, None) => unreachable!("a deferred value has its value or its bytes"),
+        }
+    }
+}
+
+impl<T: StoredForm + Clone> Deferred<T> {
+    /// The value to change, copied first when it is shared.
+    pub fn make_mut(&mut self) -> &mut T {
+        let unshared = Arc::get_mut(&mut self.0).is_some_and(|inner| inner.value.get().is_some());
+        if !unshared {
+            *self = Deferred::new((**self).clone());
+        }
+        let inner = Arc::get_mut(&mut self.0).expect("just made unshared");
+        inner.stored = None;
+        inner.value.get_mut().expect("decoded")
+    }
+}
+
+impl<T: StoredForm> std::ops::Deref for Deferred<T> {
+    type Target = T;
+
+    fn deref(&self) -> &T {
+        self.0.value.get_or_init(|| {
+            let bytes = self.0.stored.as_deref().unwrap_or_default();
+            // The index vouches for its bytes (checksummed, written by this
+            // build); going on with an empty value would change a result.
+            T::decode(bytes).unwrap_or_else(|e| {
+                panic!(
+                    "the item index holds an entry this build cannot read ({e}); run with --fresh"
+                )
+            })
+        })
+    }
+}
+
+impl<T> Clone for Deferred<T> {
+    fn clone(&self) -> Deferred<T> {
+        Deferred(Arc::clone(&self.0))
+    }
+}
+
+impl<T> From<T> for Deferred<T> {
+    fn from(value: T) -> Deferred<T> {
+        Deferred::new(value)
+    }
+}
+
+impl<T: StoredForm + std::fmt::Debug> std::fmt::Debug for Deferred<T> {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        std::fmt::Debug::fmt(&**self, f)
+    }
+}
+
+impl<T: StoredForm + PartialEq> PartialEq for Deferred<T> {
+    fn eq(&self, other: &Deferred<T>) -> bool {
+        Arc::ptr_eq(&self.0, &other.0) || **self == **other
+    }
+}
+
+/// Written as a byte string, so that reading an index entry copies the
+/// bytes without decoding them.
+impl<T: StoredForm> serde::Serialize for Deferred<T> {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        s.serialize_bytes(&self.stored_form())
+    }
+}
+
+impl<'de, T: StoredForm> serde::Deserialize<'de> for Deferred<T> {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Deferred<T>, D::Error> {
+        struct Bytes;
+        impl serde::de::Visitor<'_> for Bytes {
+            type Value = Box<[u8]>;
+            fn expecting(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+                f.write_str("stored bytes")
+            }
+            fn visit_bytes<E: serde::de::Error>(self, bytes: &[u8]) -> Result<Box<[u8]>, E> {
+                Ok(bytes.into())
+            }
+        }
+        let bytes = d.deserialize_bytes(Bytes)?;
+        Ok(Deferred(Arc::new(Inner {
+            value: OnceLock::new(),
+            stored: Some(bytes),
+        })))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[derive(Debug, Clone, PartialEq)]
+    struct Pair(u32, String);
+
+    impl StoredForm for Pair {
+        fn encode(&self) -> Vec<u8> {
+            postcard::to_allocvec(&(self.0, &self.1)).expect("encodes")
+        }
+        fn decode(bytes: &[u8]) -> Result<Pair, postcard::Error> {
+            postcard::from_bytes::<(u32, String)>(bytes).map(|(n, s)| Pair(n, s))
+        }
+    }
+
+    #[test]
+    fn a_stored_value_is_decoded_when_first_looked_at_and_reads_back_the_same() {
+        let value = Pair(7, "belt".into());
+        let bytes = postcard::to_allocvec(&Deferred::new(value.clone())).expect("encodes");
+        let back: Deferred<Pair> = postcard::from_bytes(&bytes).expect("decodes");
+        assert!(!back.is_decoded());
+        let again = postcard::to_allocvec(&back).expect("encodes");
+        assert_eq!(
+            again, bytes,
+            "written again without decoding, byte for byte"
+        );
+        assert!(!back.is_decoded());
+        assert_eq!(*back, value);
+        assert!(back.is_decoded());
+    }
+
+    #[test]
+    fn changing_a_shared_value_leaves_the_other_copy_alone() {
+        let bytes = postcard::to_allocvec(&Deferred::new(Pair(1, "a".into()))).expect("encodes");
+        let first: Deferred<Pair> = postcard::from_bytes(&bytes).expect("decodes");
+        let mut second = first.clone();
+        second.make_mut().0 = 2;
+        assert_eq!((*first).0, 1);
+        assert_eq!((*second).0, 2);
+        assert_eq!(second.stored_form(), Pair(2, "a".into()).encode());
+    }
+}
