@@ -200,7 +200,7 @@ fn main() {
 
     // As `packwright build` does (the runs above keep the defaults, as
     // `packwright run` does).
-    packwright::allocator::return_memory_promptly();
+    packwright::allocator::prepare_for_build();
     let dir = tempfile::tempdir().expect("temp dir");
     let n = generate(&demo, dir.path(), build_items);
     println!("build benchmark: {n} items, cold (no cache)");
@@ -214,6 +214,7 @@ fn main() {
         &outcome,
         &registry,
         &packwright_report::Review::default(),
+        &packwright::allocator::release_freed_memory,
     )
     .expect("package");
     let t_package = seconds(start);

@@ -340,7 +340,14 @@ fn make_package(
         eprintln!("warning: {stale}; the package says so on every page.");
     }
     let review = packwright_report::Review::from_state(&state);
-    packwright_report::make(project, outcome, registry, &review).map_err(|e| {
+    packwright_report::make_with(
+        project,
+        outcome,
+        registry,
+        &review,
+        &packwright::allocator::release_freed_memory,
+    )
+    .map_err(|e| {
         eprintln!("{e}");
         eprintln!("nothing was written; results/ and package/ were left as they were.");
         e.exit_code()

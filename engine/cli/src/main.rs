@@ -132,10 +132,10 @@ fn main() -> ExitCode {
             return ExitCode::from(code);
         }
     };
-    // Typesetting is where the memory peaks; elsewhere returning memory at
-    // once only costs time (see `allocator`).
+    // Typesetting is where the memory peaks; elsewhere returning memory
+    // only costs time (see `allocator`).
     if matches!(cli.command, Command::Build { .. }) {
-        packwright::allocator::return_memory_promptly();
+        packwright::allocator::prepare_for_build();
     }
     let out = commands::Output {
         quiet: cli.quiet,

@@ -179,6 +179,7 @@ fn typeset(
     data: &data::PackageData,
     files: Vec<data::PackageFile>,
     project: &Project,
+    after_layout: &dyn Fn(),
 ) -> Result<Typeset, ReportError> {
     let rev = project
         .meta
@@ -204,6 +205,7 @@ fn typeset(
     // needed for the PDF (the pages hold their frames), and dropping them
     // here lowers the build's peak memory, which is reached in the export.
     comemo::evict(0);
+    after_layout();
     let started = Instant::now();
     let timestamp = Datetime::from_ymd_hms(
         today.year().unwrap_or(2000),
@@ -311,6 +313,20 @@ pub fn make(
     registry: &Registry,
     review: &Review,
 ) -> Result<Package, ReportError> {
+    make_with(project, outcome, registry, review, &|| {})
+}
+
+/// [`make`], calling `after_layout` once the pages are laid out and Typst's
+/// caches dropped, before the PDF export: the build's memory peaks in the
+/// export, and the binary returns the memory freed so far to the system
+/// there (see its `allocator`).
+pub fn make_with(
+    project: &Project,
+    outcome: &RunOutcome,
+    registry: &Registry,
+    review: &Review,
+    after_layout: &dyn Fn(),
+) -> Result<Package, ReportError> {
     let mut timings = Timings::default();
     let started = Instant::now();
     let templates = templates::Templates::load(Some(&project.root.join("templates")))
@@ -321,7 +337,14 @@ pub fn make(
     let started = Instant::now();
     let rendered = templates.render(&data).map_err(ReportError::Template)?;
     timings.templates = started.elapsed();
-    let typeset = typeset(&templates, &rendered, &data, plots.clone(), project)?;
+    let typeset = typeset(
+        &templates,
+        &rendered,
+        &data,
+        plots.clone(),
+        project,
+        after_layout,
+    )?;
     timings.compile = typeset.compile;
     timings.pdf = typeset.write;
     timings.compiles = typeset.compiles;
@@ -340,14 +363,16 @@ pub fn make(
     })
 }
 
-/// Makes the package and replaces `package/` with its PDF and Typst source.
+/// Makes the package and replaces `package/` with its PDF and Typst source
+/// (`after_layout` as in [`make_with`]).
 pub fn build_and_write(
     project: &Project,
     outcome: &RunOutcome,
     registry: &Registry,
     review: &Review,
+    after_layout: &dyn Fn(),
 ) -> Result<Written, ReportError> {
-    let package = make(project, outcome, registry, review)?;
+    let package = make_with(project, outcome, registry, review, after_layout)?;
     write(project, package)
 }
 
