@@ -41,9 +41,6 @@ impl<T> Deferred<T> {
 }
 
 impl<T: StoredForm> Deferred<T> {
-    /// The stored bytes are trusted as [`StoredForm::encode`] of this build
-    /// wrote them: the item index is checksummed and headed by the build's
-    /// identity.
     /// The stored form: the bytes read, or the value encoded.
     fn stored_form(&self) -> std::borrow::Cow<'_, [u8]> {
         match (&self.0.stored, self.0.value.get()) {
@@ -73,8 +70,9 @@ impl<T: StoredForm> std::ops::Deref for Deferred<T> {
     fn deref(&self) -> &T {
         self.0.value.get_or_init(|| {
             let bytes = self.0.stored.as_deref().unwrap_or_default();
-            // The index vouches for its bytes (checksummed, written by this
-            // build); going on with an empty value would change a result.
+            // The bytes are trusted as this build's `encode` wrote them: the
+            // item index is checksummed and headed by the build's identity.
+            // Going on with an empty value would change a result.
             T::decode(bytes).unwrap_or_else(|e| {
                 panic!(
                     "the item index holds an entry this build cannot read ({e}); run with --fresh"

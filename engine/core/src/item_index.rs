@@ -16,8 +16,12 @@
 //! the modules' declarations and on the materials; it is used only when the
 //! digest of those ([`resolve_key`]) is the one it was made under. Links
 //! between items are checked on every run (they depend on other items), and
-//! so is everything downstream: the inputs digest of every item is computed
-//! again, so a linked value that changed is still seen.
+//! so is everything downstream: the inputs digest of every item with links
+//! is computed again, so a linked value that changed is still seen. An
+//! item without links depends on nothing else, so its digests are kept
+//! with its resolved form (`resolve::OwnDigests`). The inputs as written
+//! and the resolved inputs are kept as bytes until looked at
+//! ([`crate::deferred`]).
 //!
 //! The file is checksummed; a damaged, foreign or truncated index is
 //! ignored, so losing it costs only time. State:
