@@ -1,12 +1,17 @@
 //! [`Deferred`]: a value kept in its stored form until something looks at
-//! it. A rerun takes most items from the item index and looks at few of
-//! their inputs (only those of items whose links it fills or whose result
-//! files it writes); decoding every item's inputs and nodes, and dropping
-//! them again, was most of a rerun's time.
+//! it. A rerun takes most items from the item index and most outcomes from
+//! the rerun cache, and looks at few of them (the items whose links it
+//! fills or whose result files it writes); decoding every item's inputs and
+//! nodes and every outcome, and dropping them again, was most of a rerun's
+//! time.
 
+use std::ops::Range;
 use std::sync::{Arc, OnceLock};
 
-/// How a type is written into the item index and read back.
+/// Stored bytes, shared by the values read from them.
+pub type Encoded = Arc<[u8]>;
+
+/// How a type is written into the cache files and read back.
 pub trait StoredForm: Sized {
     /// The stored bytes of a value.
     fn encode(&self) -> Vec<u8>;
@@ -20,8 +25,9 @@ pub struct Deferred<T>(Arc<Inner<T>>);
 
 struct Inner<T> {
     value: OnceLock<T>,
-    /// The stored form, for a value read from the index.
-    stored: Option<Box<[u8]>>,
+    /// The stored form (bytes and where in them), for a value read from
+    /// a cache file.
+    stored: Option<(Encoded, Range<usize>)>,
 }
 
 impl<T> Deferred<T> {
@@ -41,10 +47,18 @@ impl<T> Deferred<T> {
 }
 
 impl<T: StoredForm> Deferred<T> {
+    /// A value stored in `bytes[range]`, decoded when first looked at.
+    pub(crate) fn in_bytes(bytes: Encoded, range: Range<usize>) -> Deferred<T> {
+        Deferred(Arc::new(Inner {
+            value: OnceLock::new(),
+            stored: Some((bytes, range)),
+        }))
+    }
+
     /// The stored form: the bytes read, or the value encoded.
     fn stored_form(&self) -> std::borrow::Cow<'_, [u8]> {
         match (&self.0.stored, self.0.value.get()) {
-            (Some(bytes), _) => std::borrow::Cow::Borrowed(bytes),
+            (Some((bytes, range)), _) => std::borrow::Cow::Borrowed(&bytes[range.clone()]),
             (None, Some(value)) => std::borrow::Cow::Owned(value.encode()),
             (None, None) => unreachable!("a deferred value has its value or its bytes"),
         }
@@ -69,13 +83,17 @@ impl<T: StoredForm> std::ops::Deref for Deferred<T> {
 
     fn deref(&self) -> &T {
         self.0.value.get_or_init(|| {
-            let bytes = self.0.stored.as_deref().unwrap_or_default();
+            let bytes = match &self.0.stored {
+                Some((bytes, range)) => &bytes[range.clone()],
+                None => &[],
+            };
             // The bytes are trusted as this build's `encode` wrote them: the
-            // item index is checksummed and headed by the build's identity.
-            // Going on with an empty value would change a result.
+            // cache files are checksummed and headed by the build's identity
+            // (see `framed`). Going on with an empty value would change a
+            // result.
             T::decode(bytes).unwrap_or_else(|e| {
                 panic!(
-                    "the item index holds an entry this build cannot read ({e}); run with --fresh"
+                    "the rerun cache holds an entry this build cannot read ({e}); run with --fresh"
                 )
             })
         })
@@ -106,8 +124,8 @@ impl<T: StoredForm + PartialEq> PartialEq for Deferred<T> {
     }
 }
 
-/// Written as a byte string, so that reading an index entry copies the
-/// bytes without decoding them.
+/// Written as a byte string, so that reading an item index entry copies
+/// the bytes without decoding them.
 impl<T: StoredForm> serde::Serialize for Deferred<T> {
     fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
         s.serialize_bytes(&self.stored_form())
@@ -118,19 +136,17 @@ impl<'de, T: StoredForm> serde::Deserialize<'de> for Deferred<T> {
     fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Deferred<T>, D::Error> {
         struct Bytes;
         impl serde::de::Visitor<'_> for Bytes {
-            type Value = Box<[u8]>;
+            type Value = Encoded;
             fn expecting(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
                 f.write_str("stored bytes")
             }
-            fn visit_bytes<E: serde::de::Error>(self, bytes: &[u8]) -> Result<Box<[u8]>, E> {
+            fn visit_bytes<E: serde::de::Error>(self, bytes: &[u8]) -> Result<Encoded, E> {
                 Ok(bytes.into())
             }
         }
         let bytes = d.deserialize_bytes(Bytes)?;
-        Ok(Deferred(Arc::new(Inner {
-            value: OnceLock::new(),
-            stored: Some(bytes),
-        })))
+        let all = 0..bytes.len();
+        Ok(Deferred::in_bytes(bytes, all))
     }
 }
 

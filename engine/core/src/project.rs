@@ -467,7 +467,7 @@ pub fn load_indexed(
         return Err(out);
     };
 
-    let mut materials = BTreeMap::new();
+    let mut materials: BTreeMap<String, Material> = BTreeMap::new();
     let mut items: Vec<ItemFile> = Vec::new();
     let walker = WalkDir::new(&root)
         .follow_links(false)
@@ -637,15 +637,7 @@ pub fn load_indexed(
         if rel.starts_with("materials/") {
             if let Some(m) = parse_material(&node, &mut out) {
                 if let Some(prev) = materials.get(&m.id) {
-                    let prev: &Material = prev;
-                    out.push(
-                        Diagnostic::new(
-                            Some(m.span.clone()),
-                            format!("material id `{}` is used twice", m.id),
-                        )
-                        .related(prev.span.clone(), "the other material with this id")
-                        .expected("a unique id for each material"),
-                    );
+                    out.push(used_twice("material", &m.id, &m.span, &prev.span, ""));
                 } else {
                     materials.insert(m.id.clone(), m);
                 }
@@ -668,6 +660,16 @@ pub fn load_indexed(
     ))
 }
 
+/// The problem of an id that a `kind` ("item", "material") already has.
+fn used_twice(kind: &str, id: &str, span: &Span, prev: &Span, example: &str) -> Diagnostic {
+    Diagnostic::new(
+        Some(span.clone()),
+        format!("{kind} id `{id}` is used twice"),
+    )
+    .related(prev.clone(), format!("the other {kind} with this id"))
+    .expected(format!("a unique id for each {kind}{example}"))
+}
+
 /// Adds an item unless its id is taken, which is reported.
 fn add_item(
     item: ItemFile,
@@ -676,15 +678,14 @@ fn add_item(
     out: &mut Diagnostics,
 ) {
     if let Some(&prev) = item_ids.get(&item.id) {
-        let prev: &ItemFile = &items[prev];
-        out.push(
-            Diagnostic::new(
-                Some(item.id_span.clone()),
-                format!("item id `{}` is used twice", item.id),
-            )
-            .related(prev.id_span.clone(), "the other item with this id")
-            .expected("a unique id for each item, such as `CV-101-LOAD`"),
-        );
+        let example = ", such as `CV-101-LOAD`";
+        out.push(used_twice(
+            "item",
+            &item.id,
+            &item.id_span,
+            &items[prev].id_span,
+            example,
+        ));
     } else {
         item_ids.insert(item.id.clone(), items.len());
         items.push(item);

@@ -706,7 +706,7 @@ fn order(
                 }
             }
         };
-        match planned.get(&item.id).filter(|p| p.file == item.file) {
+        match planned.get(&item.id) {
             Some(p) => p.links.iter().for_each(|l| depend_on(&l.item)),
             None => {
                 for (_, node) in &item.written.inputs {

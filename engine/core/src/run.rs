@@ -7,7 +7,7 @@
 
 use std::collections::BTreeMap;
 use std::ops::Range;
-use std::sync::{Arc, Mutex, OnceLock};
+use std::sync::{Arc, Mutex};
 
 use packwright_api::{
     CalcError, Inputs, Measure, Module, ModuleDeclaration, Origin, Outcome, ResolvedInput, Value,
@@ -15,7 +15,7 @@ use packwright_api::{
 use rayon::prelude::*;
 use sha2::{Digest, Sha256};
 
-use crate::deferred::Deferred;
+use crate::deferred::{Deferred, StoredForm};
 use crate::registry::Registry;
 use crate::resolve::{Plan, PlannedItem};
 
@@ -68,66 +68,66 @@ pub trait OutcomeStore: Sync {
     fn get(&self, digest: &str) -> Option<SharedOutcome>;
 }
 
-/// Encoded outcomes, shared by the [`SharedOutcome`]s taken from them.
-pub type Encoded = Arc<[u8]>;
+pub use crate::deferred::Encoded;
 
 /// An item's outcome. One computed in this run is held as it is; one taken
-/// from the rerun cache is decoded when first looked at, because a rerun
-/// looks at few of them (the sources of links and the items whose result
-/// files are written), and decoding and dropping every outcome, series and
-/// plots included, was a large part of a rerun. The store vouches for the
-/// bytes (see `cache`: checksummed, written by this build of the tool).
+/// from the rerun cache is decoded when first looked at (see
+/// [`Deferred`]): a rerun looks at few of them (the sources of links and
+/// the items whose result files are written). The outputs are stored apart
+/// too, because a link source's outputs enter the digests of the items
+/// linking to it, and the rest (series, plots) is the bulk.
 #[derive(Clone)]
-pub struct SharedOutcome(Arc<Lazy>);
-
-struct Lazy {
-    full: OnceLock<Outcome>,
-    outputs: OnceLock<BTreeMap<String, Measure>>,
-    /// The bytes, where the outputs alone are encoded, and where the whole
-    /// outcome is.
-    encoded: Option<(Encoded, Range<usize>, Range<usize>)>,
+pub struct SharedOutcome {
+    full: Deferred<Outcome>,
+    /// The outputs alone, for an outcome taken from the cache.
+    outputs: Option<Deferred<BTreeMap<String, Measure>>>,
 }
 
 impl SharedOutcome {
     /// An outcome taken from encoded bytes: `outputs` holds the outputs
     /// alone and `full` the whole outcome, both in postcard's form.
     pub fn encoded(bytes: Encoded, outputs: Range<usize>, full: Range<usize>) -> SharedOutcome {
-        SharedOutcome(Arc::new(Lazy {
-            full: OnceLock::new(),
-            outputs: OnceLock::new(),
-            encoded: Some((bytes, outputs, full)),
-        }))
+        SharedOutcome {
+            full: Deferred::in_bytes(bytes.clone(), full),
+            outputs: Some(Deferred::in_bytes(bytes, outputs)),
+        }
     }
 
     /// One output, without decoding the rest of the outcome.
     pub fn output(&self, name: &str) -> Option<&Measure> {
-        match (self.0.full.get(), &self.0.encoded) {
-            (None, Some((bytes, outputs, _))) => self
-                .0
-                .outputs
-                .get_or_init(|| decode(&bytes[outputs.clone()]))
-                .get(name),
-            _ => self.outputs.get(name),
+        match &self.outputs {
+            Some(outputs) if !self.full.is_decoded() => outputs.get(name),
+            _ => self.full.outputs.get(name),
         }
     }
 }
 
-/// Decodes what this build encoded into a store it checksums; failing
-/// here means the store's guarantees are broken, and going on with an
-/// empty value would change a result.
-fn decode<T: serde::de::DeserializeOwned>(bytes: &[u8]) -> T {
-    postcard::from_bytes(bytes).unwrap_or_else(|e| {
-        panic!("the rerun cache holds an outcome this build cannot read ({e}); run with --fresh")
-    })
+impl StoredForm for Outcome {
+    fn encode(&self) -> Vec<u8> {
+        postcard::to_allocvec(self).expect("an outcome encodes")
+    }
+
+    fn decode(bytes: &[u8]) -> Result<Outcome, postcard::Error> {
+        postcard::from_bytes(bytes)
+    }
+}
+
+impl StoredForm for BTreeMap<String, Measure> {
+    fn encode(&self) -> Vec<u8> {
+        postcard::to_allocvec(self).expect("outputs encode")
+    }
+
+    fn decode(bytes: &[u8]) -> Result<BTreeMap<String, Measure>, postcard::Error> {
+        postcard::from_bytes(bytes)
+    }
 }
 
 impl From<Outcome> for SharedOutcome {
     fn from(outcome: Outcome) -> SharedOutcome {
-        SharedOutcome(Arc::new(Lazy {
-            full: OnceLock::from(outcome),
-            outputs: OnceLock::new(),
-            encoded: None,
-        }))
+        SharedOutcome {
+            full: Deferred::new(outcome),
+            outputs: None,
+        }
     }
 }
 
@@ -135,10 +135,7 @@ impl std::ops::Deref for SharedOutcome {
     type Target = Outcome;
 
     fn deref(&self) -> &Outcome {
-        self.0.full.get_or_init(|| match &self.0.encoded {
-            Some((bytes, _, full)) => decode(&bytes[full.clone()]),
-            None => Outcome::default(),
-        })
+        &self.full
     }
 }
 
