@@ -118,16 +118,21 @@ fn user_text_is_typeset_literally() {
     assert!(!text.contains("root:x:0"), "a user string read a file");
 }
 
+/// Puts a template of the project's own, which replaces the built-in one.
+fn override_template(project: &std::path::Path, name: &str, text: &str) {
+    let templates = project.join("templates");
+    std::fs::create_dir_all(&templates).expect("mkdir");
+    std::fs::write(templates.join(name), text).expect("write");
+}
+
 #[test]
 fn a_project_template_replaces_the_default() {
     let demo = demo_copy();
-    let templates = demo.path().join("templates");
-    std::fs::create_dir_all(&templates).expect("mkdir");
-    std::fs::write(
-        templates.join("cautions.typ.hbs"),
+    override_template(
+        demo.path(),
+        "cautions.typ.hbs",
         "#heading(numbering: none)[Site cautions]\nKestrel site rule 7 applies to {{project.name}}.\n",
-    )
-    .expect("write");
+    );
     let ran = packwright(demo.path(), &["build", "."]);
     assert_eq!(ran.code, 0, "{}", ran.all());
     let text = pdf_text(&demo.path().join("package/HCT-MH-CALC-0042-B.pdf"));
@@ -285,13 +290,11 @@ fn method_statements_are_said_once_and_every_item_points_to_its_own() {
     );
 
     // Repeated in every item section on request.
-    let templates = demo.path().join("templates");
-    std::fs::create_dir_all(&templates).expect("mkdir");
-    std::fs::write(
-        templates.join("item.typ.hbs"),
+    override_template(
+        demo.path(),
+        "item.typ.hbs",
         "{{> item-heading}}\n{{> item-inputs}}\n{{> item-method}}\n{{> item-results}}\n{{> item-checks}}\n{{> item-notes}}\n",
-    )
-    .expect("write");
+    );
     let ran = packwright(demo.path(), &["build", "."]);
     assert_eq!(ran.code, 0, "{}", ran.all());
     let text = pdf_text(&pdf);
