@@ -109,6 +109,8 @@ fn seconds(start: Instant) -> f64 {
 }
 
 fn main() {
+    // As every `packwright` command does.
+    packwright::allocator::use_small_pages();
     let mut args = std::env::args().skip(1);
     let run_items: usize = args.next().and_then(|a| a.parse().ok()).unwrap_or(1000);
     let build_items: usize = args.next().and_then(|a| a.parse().ok()).unwrap_or(100);

@@ -124,6 +124,7 @@ pub(crate) enum Command {
 }
 
 fn main() -> ExitCode {
+    packwright::allocator::use_small_pages();
     let cli = match Cli::try_parse() {
         Ok(cli) => cli,
         Err(e) => {
