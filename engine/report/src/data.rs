@@ -150,6 +150,7 @@ struct MethodStatement {
     title: String,
     /// The ids of the items computed with it, in package order.
     items: Vec<String>,
+    columns: MethodColumns,
     method: Vec<MethodRow>,
     inputs: Vec<TermRow>,
     outputs: Vec<TermRow>,
@@ -158,6 +159,122 @@ struct MethodStatement {
     assumptions: Vec<String>,
     cautions: Vec<String>,
     references: Vec<String>,
+}
+
+/// The widths of the fixed columns of an item's ruled rows (Typst lengths
+/// in em, from [`crate::measure`]): inputs, acceptance limits and results
+/// share the name and value columns, so the three line up.
+#[derive(Serialize)]
+struct ItemColumns {
+    name: String,
+    value: String,
+    check: String,
+    demand: String,
+    limit: String,
+}
+
+/// Space after the widest entry of a column, in em.
+const COLUMN_GAP: f64 = 1.2;
+/// The most a name column takes (about 55 mm at 9 pt): the last column
+/// keeps room to wrap in.
+const NAME_COLUMN_MOST: f64 = 17.0;
+/// The most a value column takes; a longer value wraps inside it.
+const VALUE_COLUMN_MOST: f64 = 13.0;
+
+/// A name as a leading column shows it: one wider than the widest name
+/// column may break after its underscores, rather than run into the next
+/// column (names have no spaces to break at).
+fn fitted_name(name: &str) -> String {
+    if crate::measure::em_width(name, false) + COLUMN_GAP > NAME_COLUMN_MOST {
+        name.replace('_', "_\u{200B}")
+    } else {
+        name.to_string()
+    }
+}
+
+impl ItemColumns {
+    fn of(
+        inputs: &[InputRow],
+        criteria: &[CriterionRow],
+        outputs: &[OutputRow],
+        checks: &[CheckRow],
+    ) -> ItemColumns {
+        let names = inputs
+            .iter()
+            .map(|r| r.name.as_str())
+            .chain(criteria.iter().map(|r| r.name.as_str()))
+            .chain(outputs.iter().map(|r| r.name.as_str()));
+        let values = inputs
+            .iter()
+            .map(|r| r.value.as_str())
+            .chain(criteria.iter().map(|r| r.value.as_str()))
+            .chain(outputs.iter().map(|r| r.value.as_str()));
+        use crate::measure::column;
+        ItemColumns {
+            // The widest of the three headings the column carries.
+            name: column("Acceptance limit", names, COLUMN_GAP, NAME_COLUMN_MOST),
+            value: column("Value", values, COLUMN_GAP, VALUE_COLUMN_MOST),
+            check: column(
+                "Check",
+                checks.iter().map(|c| c.name.as_str()),
+                COLUMN_GAP,
+                NAME_COLUMN_MOST,
+            ),
+            demand: column(
+                "Demand",
+                checks.iter().map(|c| c.value.as_str()),
+                COLUMN_GAP,
+                VALUE_COLUMN_MOST,
+            ),
+            limit: column(
+                "Limit",
+                checks.iter().map(|c| c.limit.as_str()),
+                COLUMN_GAP,
+                VALUE_COLUMN_MOST,
+            ),
+        }
+    }
+}
+
+/// The widths of the fixed columns of a method statement's ruled rows: the
+/// names of its inputs, outputs, limits and checks, and what an input takes
+/// or an output gives (required, a default or a unit).
+#[derive(Serialize, Default)]
+struct MethodColumns {
+    name: String,
+    takes: String,
+}
+
+impl MethodColumns {
+    fn of(statement: &MethodStatement) -> MethodColumns {
+        use crate::measure::column;
+        let terms = || {
+            statement
+                .inputs
+                .iter()
+                .chain(&statement.outputs)
+                .chain(&statement.criteria)
+                .chain(&statement.checks)
+        };
+        MethodColumns {
+            name: column(
+                "Acceptance limit",
+                terms().map(|t| t.name.as_str()),
+                COLUMN_GAP,
+                NAME_COLUMN_MOST,
+            ),
+            takes: column(
+                "Required or default",
+                statement
+                    .inputs
+                    .iter()
+                    .chain(&statement.outputs)
+                    .map(|t| t.takes.as_str()),
+                COLUMN_GAP,
+                VALUE_COLUMN_MOST,
+            ),
+        }
+    }
 }
 
 #[derive(Serialize)]
@@ -177,6 +294,7 @@ struct ItemData {
     file: String,
     notes: Option<String>,
     inputs_digest: String,
+    columns: ItemColumns,
     inputs: Vec<InputRow>,
     criteria: Vec<CriterionRow>,
     method: Vec<MethodRow>,
@@ -353,7 +471,7 @@ fn method_statement(
     let unit_of = |spec: &packwright_api::OutputSpec| {
         display::pretty_unit(display::output_unit(spec, system))
     };
-    MethodStatement {
+    let mut statement = MethodStatement {
         module: decl.name.clone(),
         version: decl.version.clone(),
         origin: origin_words(reg),
@@ -361,12 +479,13 @@ fn method_statement(
         label: method_label_of(&decl.name),
         title: method_title_of(decl),
         items: Vec::new(),
+        columns: MethodColumns::default(),
         method: method_rows(decl),
         inputs: decl
             .inputs
             .iter()
             .map(|i| TermRow {
-                name: i.name.clone(),
+                name: fitted_name(&i.name),
                 meaning: i.meaning.clone(),
                 takes: match &i.need {
                     packwright_api::Need::Required => "required".into(),
@@ -379,7 +498,7 @@ fn method_statement(
             .outputs
             .iter()
             .map(|o| TermRow {
-                name: o.name.clone(),
+                name: fitted_name(&o.name),
                 meaning: o.meaning.clone(),
                 takes: unit_of(o),
             })
@@ -388,7 +507,7 @@ fn method_statement(
             .criteria
             .iter()
             .map(|c| TermRow {
-                name: c.name.clone(),
+                name: fitted_name(&c.name),
                 meaning: c.meaning.clone(),
                 takes: c
                     .default
@@ -401,7 +520,7 @@ fn method_statement(
             .checks
             .iter()
             .map(|c| TermRow {
-                name: c.name.clone(),
+                name: fitted_name(&c.name),
                 meaning: c.meaning.clone(),
                 takes: String::new(),
             })
@@ -409,7 +528,9 @@ fn method_statement(
         assumptions: decl.assumptions.clone(),
         cautions: decl.cautions.clone(),
         references: decl.references.clone(),
-    }
+    };
+    statement.columns = MethodColumns::of(&statement);
+    statement
 }
 
 /// Where a module comes from, in words.
@@ -501,14 +622,14 @@ pub fn build(
                 input.written.as_str()
             };
             inputs.push(InputRow {
-                name: spec.name.clone(),
+                name: fitted_name(&spec.name),
                 meaning: spec.meaning.clone(),
                 value: value_words(&input.value, system, written),
                 source,
                 link,
             });
         }
-        let criteria = decl
+        let criteria: Vec<CriterionRow> = decl
             .criteria
             .iter()
             .filter_map(|c| {
@@ -537,7 +658,7 @@ pub fn build(
                     _ => String::new(),
                 };
                 Some(CriterionRow {
-                    name: c.name.clone(),
+                    name: fitted_name(&c.name),
                     meaning: c.meaning.clone(),
                     value,
                     basis: if overridden {
@@ -548,14 +669,14 @@ pub fn build(
                 })
             })
             .collect();
-        let outputs = decl
+        let outputs: Vec<OutputRow> = decl
             .outputs
             .iter()
             .filter_map(|spec| {
                 let m = run.outcome.outputs.get(&spec.name)?;
                 let (value, unit) = display::output(m, Some(spec), system);
                 Some(OutputRow {
-                    name: spec.name.clone(),
+                    name: fitted_name(&spec.name),
                     meaning: spec.meaning.clone(),
                     value,
                     unit,
@@ -581,7 +702,7 @@ pub fn build(
                         .unwrap_or_default()
                 };
                 CheckRow {
-                    name: c.name.clone(),
+                    name: fitted_name(&c.name),
                     pass,
                     value: show(&c.value),
                     relation: match c.relation {
@@ -649,6 +770,7 @@ pub fn build(
             file: run.item.file.to_string(),
             notes: run.item.notes.clone(),
             inputs_digest: run.inputs_digest.clone(),
+            columns: ItemColumns::of(&inputs, &criteria, &outputs, &checks),
             inputs,
             criteria,
             method: method_rows(decl),
@@ -690,4 +812,59 @@ pub fn build(
         item_module,
     };
     Ok((data, plots_out))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Names that fit the name column stay as written (the PDF's text has
+    /// them whole); a name wider than the widest column may break after
+    /// its underscores and is otherwise the same name.
+    #[test]
+    fn only_a_name_too_wide_for_its_column_may_break() {
+        assert_eq!(fitted_name("acceleration_length"), "acceleration_length");
+        let long = "acceleration_length_within_the_skirts_of_the_loading_point";
+        let fitted = fitted_name(long);
+        assert_ne!(fitted, long);
+        assert_eq!(fitted.replace('\u{200B}', ""), long);
+        assert!(fitted.contains("_\u{200B}within"));
+    }
+
+    /// An item's name and value columns fit its widest name and value and
+    /// are shared by its inputs, limits and results.
+    #[test]
+    fn an_items_columns_fit_its_widest_entries() {
+        let input = |name: &str, value: &str| InputRow {
+            name: name.into(),
+            meaning: String::new(),
+            value: value.into(),
+            source: String::new(),
+            link: None,
+        };
+        let output = OutputRow {
+            name: "acceleration_length_reached".into(),
+            meaning: String::new(),
+            value: "1.598".into(),
+            unit: "m".into(),
+        };
+        let columns = ItemColumns::of(
+            &[
+                input("belt_speed", "4.5 m/s"),
+                input("material", "iron-ore-fines"),
+            ],
+            &[],
+            &[output],
+            &[],
+        );
+        let em = |text: &str| crate::measure::em_width(text, false) + COLUMN_GAP;
+        let width = |column: &str| column.trim_end_matches("em").parse::<f64>().unwrap();
+        let name = width(&columns.name);
+        assert!(
+            name >= em("acceleration_length_reached")
+                && name < em("acceleration_length_reached") + 0.01
+        );
+        let value = width(&columns.value);
+        assert!(value >= em("iron-ore-fines") && value < em("iron-ore-fines") + 0.01);
+    }
 }

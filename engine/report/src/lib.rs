@@ -12,6 +12,7 @@
 pub mod compose;
 pub mod data;
 pub mod escape;
+pub mod measure;
 pub mod plot;
 pub mod templates;
 pub mod world;

@@ -179,3 +179,12 @@ impl World for PackageWorld {
         Some(self.today)
     }
 }
+
+/// An embedded font by family (lower case) and weight, for measuring text
+/// outside Typst ([`crate::measure`]).
+pub(crate) fn embedded_font(family: &str, weight: typst::text::FontWeight) -> Option<Font> {
+    use typst::text::{FontStretch, FontStyle, FontVariant};
+    let variant = FontVariant::new(FontStyle::Normal, weight, FontStretch::NORMAL);
+    let index = fonts().book().select(family, variant)?;
+    fonts().font(index)
+}
