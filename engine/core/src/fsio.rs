@@ -165,7 +165,15 @@ const SYNC_EACH_UP_TO: usize = 16;
 ///
 /// Every [`Update::Keep`] must name a file that `target` holds with the new
 /// content. The caller keeps other writers out (the cache's lock).
-pub fn update_dir(target: &Path, spare: &Path, files: &[(String, Update<'_>)]) -> io::Result<()> {
+///
+/// Returns, for each of `files`, whether it was written or linked anew:
+/// the others are the inodes `target` held before, untouched (their change
+/// time too), so a caller that knew their stamps need not look again.
+pub fn update_dir(
+    target: &Path,
+    spare: &Path,
+    files: &[(String, Update<'_>)],
+) -> io::Result<Vec<bool>> {
     clean_leftovers(target);
     fs::create_dir_all(spare)?;
     let in_spare = inodes(spare);
@@ -181,35 +189,36 @@ pub fn update_dir(target: &Path, spare: &Path, files: &[(String, Update<'_>)]) -
         .filter(|(_, u)| matches!(u, Update::Write(_)))
         .count();
     let sync_each = written <= SYNC_EACH_UP_TO;
-    for (name, update) in files {
+    let mut touched = vec![true; files.len()];
+    let mut to_sync = Vec::new();
+    for ((name, update), touched) in files.iter().zip(&mut touched) {
         let path = spare.join(name);
         match update {
             Update::Keep => {
                 let same = in_spare.contains_key(name) && in_spare.get(name) == in_target.get(name);
                 if same {
+                    *touched = false;
                     continue;
                 }
                 remove_any(&path)?;
                 let old = target.join(name);
                 if fs::hard_link(&old, &path).is_err() {
                     fs::copy(&old, &path)?;
-                    if sync_each {
-                        fs::File::open(&path)?.sync_all()?;
-                    }
+                    to_sync.push(path);
                 }
             }
             Update::Write(bytes) => {
                 remove_any(&path)?;
-                if sync_each {
-                    write_synced(&path, bytes)?;
-                } else {
-                    fs::write(&path, bytes)?;
-                }
+                fs::write(&path, bytes)?;
+                to_sync.push(path);
             }
         }
     }
     if sync_each {
-        sync_dir(spare)?;
+        // Side by side: the file system commits flushes that wait at once
+        // together, where one after another each waits for a commit.
+        to_sync.push(spare.to_path_buf());
+        sync_all(&to_sync)?;
     } else {
         // One flush of the file system for the whole folder: a thousand
         // result files would otherwise cost a thousand fsyncs.
@@ -239,10 +248,21 @@ pub fn update_dir(target: &Path, spare: &Path, files: &[(String, Update<'_>)]) -
             }
         }
     }
-    for dir in [target.parent(), spare.parent()].into_iter().flatten() {
-        sync_dir(dir)?;
-    }
-    Ok(())
+    let parents: Vec<PathBuf> = [target.parent(), spare.parent()]
+        .into_iter()
+        .flatten()
+        .map(Path::to_path_buf)
+        .collect();
+    sync_all(&parents)?;
+    Ok(touched)
+}
+
+/// Flushes files and folders to disk, all at once.
+fn sync_all(paths: &[PathBuf]) -> io::Result<()> {
+    use rayon::prelude::*;
+    paths
+        .par_iter()
+        .try_for_each(|path| fs::File::open(path)?.sync_all())
 }
 
 /// Writes one file atomically: the new content goes to a hidden file beside
@@ -322,5 +342,53 @@ mod tests {
         write_file(&target, b"new").unwrap();
         assert_eq!(fs::read(&target).unwrap(), b"new");
         assert_eq!(fs::read_dir(target.parent().unwrap()).unwrap().count(), 1);
+    }
+
+    /// After an update the folder holds exactly the new files; a file kept
+    /// as the same inode is reported untouched, with its stamp as before,
+    /// and a written or newly linked one touched.
+    #[test]
+    fn updates_a_folder_and_says_what_it_touched() {
+        let dir = tempfile::tempdir().unwrap();
+        let target = dir.path().join("results");
+        let spare = dir.path().join("cache").join("spare");
+        let names = ["a.yaml", "b.yaml", "c.yaml"];
+        let first: Vec<(String, Update<'_>)> = names
+            .iter()
+            .map(|n| (n.to_string(), Update::Write(b"1")))
+            .collect();
+        assert_eq!(update_dir(&target, &spare, &first).unwrap(), [true; 3]);
+        let before = crate::index::stamp_of(&target.join("a.yaml"));
+        let second = vec![
+            ("a.yaml".to_string(), Update::Keep),
+            ("b.yaml".to_string(), Update::Write(b"2")),
+            ("d.yaml".to_string(), Update::Write(b"4")),
+        ];
+        assert_eq!(
+            update_dir(&target, &spare, &second).unwrap(),
+            [false, true, true]
+        );
+        assert_eq!(crate::index::stamp_of(&target.join("a.yaml")), before);
+        let mut held: Vec<_> = fs::read_dir(&target)
+            .unwrap()
+            .flatten()
+            .map(|e| e.file_name().into_string().unwrap())
+            .collect();
+        held.sort();
+        assert_eq!(held, ["a.yaml", "b.yaml", "d.yaml"]);
+        assert_eq!(fs::read(target.join("b.yaml")).unwrap(), b"2");
+        assert_eq!(fs::read(target.join("a.yaml")).unwrap(), b"1");
+        // The spare now holds the version before; the next update links
+        // the kept files it does not share.
+        let third = vec![
+            ("a.yaml".to_string(), Update::Keep),
+            ("b.yaml".to_string(), Update::Keep),
+            ("d.yaml".to_string(), Update::Keep),
+        ];
+        assert_eq!(
+            update_dir(&target, &spare, &third).unwrap(),
+            [false, true, true]
+        );
+        assert_eq!(fs::read(target.join("d.yaml")).unwrap(), b"4");
     }
 }

@@ -254,6 +254,8 @@ impl Computed {
         }
         let all_there = self.files.iter().all(|f| f.on_disk)
             && std::fs::read_dir(&results).is_ok_and(|d| d.count() == self.files.len());
+        // Which files have a new stamp: none when nothing was written.
+        let mut touched = vec![false; self.files.len()];
         if !all_there {
             let updates: Vec<(String, fsio::Update<'_>)> = self
                 .files
@@ -267,26 +269,31 @@ impl Computed {
                 })
                 .collect();
             let spare = cache_dir.join(index::SPARE_FOLDER);
-            if let Err(e) = fsio::update_dir(&results, &spare, &updates) {
-                // The spare folder may sit on another file system (a linked
-                // cache folder): write the folder whole instead.
-                let _ = std::fs::remove_dir_all(&spare);
-                let whole = self.whole_files(&results).map_err(io)?;
-                fsio::replace_dir(&results, &whole).map_err(|e2| {
-                    EngineError::Io(format!("cannot write results/: {e2} (and {e})"))
-                })?;
-            }
+            touched = match fsio::update_dir(&results, &spare, &updates) {
+                Ok(touched) => touched,
+                Err(e) => {
+                    // The spare folder may sit on another file system (a
+                    // linked cache folder): write the folder whole instead.
+                    let _ = std::fs::remove_dir_all(&spare);
+                    let whole = self.whole_files(&results).map_err(io)?;
+                    fsio::replace_dir(&results, &whole).map_err(|e2| {
+                        EngineError::Io(format!("cannot write results/: {e2} (and {e})"))
+                    })?;
+                    vec![true; self.files.len()]
+                }
+            };
         }
         let mut index = index::Index::new();
         let entries: Vec<Option<(String, index::Entry)>> = self
             .files
             .par_iter()
-            .map(|f| {
-                // Nothing written: every stamp was seen under the lock.
-                let stamp = if all_there {
-                    f.seen
-                } else {
+            .zip(&touched)
+            .map(|(f, &touched)| {
+                // An untouched file's stamp was seen under the lock.
+                let stamp = if touched {
                     index::stamp_of(&results.join(&f.name))
+                } else {
+                    f.seen
                 };
                 stamp.map(|stamp| {
                     (
