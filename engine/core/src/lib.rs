@@ -78,7 +78,7 @@ impl std::fmt::Display for EngineError {
 
 /// Loads and validates a project: every problem at once.
 pub fn check(root: &Path, registry: &Registry) -> Result<(Project, Plan), EngineError> {
-    check_indexed(root, registry, None).map(|(project, plan, _)| (project, plan))
+    check_indexed(root, registry, || None).map(|(project, plan, _)| (project, plan))
 }
 
 /// [`check`], with an item index (see [`item_index`]): unchanged item files
@@ -87,10 +87,10 @@ pub fn check(root: &Path, registry: &Registry) -> Result<(Project, Plan), Engine
 fn check_indexed(
     root: &Path,
     registry: &Registry,
-    index: Option<item_index::ItemIndex>,
+    load_index: impl FnOnce() -> Option<item_index::ItemIndex> + Send,
 ) -> Result<(Project, Plan, item_index::Seen), EngineError> {
-    let (project, mut problems, loaded) =
-        project::load_indexed(root, index.as_ref()).map_err(EngineError::BadInput)?;
+    let (project, mut problems, loaded, index) =
+        project::load_indexed(root, load_index).map_err(EngineError::BadInput)?;
     let mut seen = item_index::Seen::default();
     let mut reused = std::collections::HashMap::new();
     if let Some(index) = index {
@@ -343,12 +343,15 @@ pub fn compute_project(
     options: RunOptions,
 ) -> Result<Computed, EngineError> {
     // `--fresh` reuses no item, but the index is written anew after the run.
-    let index = if options.fresh {
-        item_index::ItemIndex::default()
-    } else {
-        item_index::ItemIndex::load(&root.join(cache::CACHE_FOLDER))
+    let cache_dir = root.join(cache::CACHE_FOLDER);
+    let load_index = || {
+        Some(if options.fresh {
+            item_index::ItemIndex::default()
+        } else {
+            item_index::ItemIndex::load(&cache_dir)
+        })
     };
-    let (project, plan, items) = check_indexed(root, registry, Some(index))?;
+    let (project, plan, items) = check_indexed(root, registry, load_index)?;
     let store = cache::Cache::open(&project.root);
     if let Some(on_plan) = &options.on_plan {
         on_plan(plan.items.len());

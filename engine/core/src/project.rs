@@ -375,7 +375,7 @@ fn relative(root: &Path, path: &Path) -> Arc<str> {
 /// Loads the project at `root`. Returns the project with every well-formed
 /// part, and every problem found; the caller decides whether to go on.
 pub fn load(root: &Path) -> Result<(Project, Diagnostics), Diagnostics> {
-    load_indexed(root, None).map(|(project, out, _)| (project, out))
+    load_indexed(root, || None).map(|(project, out, _, _)| (project, out))
 }
 
 /// What [`load_indexed`] learnt of the item files besides their items.
@@ -412,12 +412,14 @@ pub fn named_modules(root: &Path) -> Vec<String> {
 }
 
 /// [`load`], taking the item of each item file whose stamp is unchanged
-/// from `index` instead of reading and parsing the file (see
-/// [`crate::item_index`]). Materials and `project.yaml` are always read.
+/// from the item index instead of reading and parsing the file (see
+/// [`crate::item_index`]). `load_index` reads the index, while the tree is
+/// walked; the index is returned for writing it again after the run.
+/// Materials and `project.yaml` are always read.
 pub fn load_indexed(
     root: &Path,
-    index: Option<&ItemIndex>,
-) -> Result<(Project, Diagnostics, ItemStamps), Diagnostics> {
+    load_index: impl FnOnce() -> Option<ItemIndex> + Send,
+) -> Result<(Project, Diagnostics, ItemStamps, Option<ItemIndex>), Diagnostics> {
     let mut out = Diagnostics::default();
     let started = std::time::SystemTime::now();
     let root = root.canonicalize().map_err(|e| {
@@ -469,23 +471,6 @@ pub fn load_indexed(
 
     let mut materials: BTreeMap<String, Material> = BTreeMap::new();
     let mut items: Vec<ItemFile> = Vec::new();
-    let walker = WalkDir::new(&root)
-        .follow_links(false)
-        .sort_by_file_name()
-        .into_iter()
-        .filter_entry(|e| {
-            let name = e.file_name().to_string_lossy();
-            if e.depth() == 0 {
-                return true;
-            }
-            if name.starts_with('.') {
-                return false;
-            }
-            !(e.depth() == 1
-                && e.file_type().is_dir()
-                && (WRITTEN_FOLDERS.contains(&name.as_ref())
-                    || OTHER_FOLDERS.contains(&name.as_ref())))
-        });
     // The walk is cheap and ordered; reading and parsing the files is the
     // cost, so it runs in parallel and the results are taken in walk order.
     enum Step {
@@ -496,67 +481,93 @@ pub fn load_indexed(
             linked: bool,
         },
     }
-    let mut steps = Vec::new();
-    for entry in walker {
-        let entry = match entry {
-            Ok(e) => e,
-            Err(e) => {
-                let rel = e
-                    .path()
-                    .map(|p| relative(&root, p))
-                    .unwrap_or_else(|| Arc::from("?"));
-                steps.push(Step::Problem(Diagnostic::new(
-                    Some(Span::new(rel, 1, 1)),
-                    format!("cannot read this part of the project tree: {e}"),
-                )));
-                continue;
-            }
-        };
-        let path = entry.path();
-        let ext = path.extension().and_then(|e| e.to_str()).unwrap_or("");
-        // A linked folder is not followed (it could loop or duplicate
-        // items), but one that leads out of the project is an error rather
-        // than silently missing files.
-        if entry.path_is_symlink() && entry.depth() > 0 {
-            if let Ok(real) = path.canonicalize() {
-                if real.is_dir() && !real.starts_with(&root) {
-                    steps.push(Step::Problem(
-                        Diagnostic::new(
-                            Some(Span::new(relative(&root, path), 1, 1)),
-                            format!(
-                                "this folder is a link to {}, outside the project folder",
-                                real.display()
-                            ),
-                        )
-                        .expected("project files inside the project folder; copy the folder in instead of linking it"),
-                    ));
+    // The item index is read while the tree is walked: both take a few
+    // milliseconds of a rerun's few tens.
+    let list_files = || {
+        let walker = WalkDir::new(&root)
+            .follow_links(false)
+            .sort_by_file_name()
+            .into_iter()
+            .filter_entry(|e| {
+                let name = e.file_name().to_string_lossy();
+                if e.depth() == 0 {
+                    return true;
+                }
+                if name.starts_with('.') {
+                    return false;
+                }
+                !(e.depth() == 1
+                    && e.file_type().is_dir()
+                    && (WRITTEN_FOLDERS.contains(&name.as_ref())
+                        || OTHER_FOLDERS.contains(&name.as_ref())))
+            });
+        let mut steps = Vec::new();
+        for entry in walker {
+            let entry = match entry {
+                Ok(e) => e,
+                Err(e) => {
+                    let rel = e
+                        .path()
+                        .map(|p| relative(&root, p))
+                        .unwrap_or_else(|| Arc::from("?"));
+                    steps.push(Step::Problem(Diagnostic::new(
+                        Some(Span::new(rel, 1, 1)),
+                        format!("cannot read this part of the project tree: {e}"),
+                    )));
                     continue;
                 }
+            };
+            let path = entry.path();
+            let ext = path.extension().and_then(|e| e.to_str()).unwrap_or("");
+            // A linked folder is not followed (it could loop or duplicate
+            // items), but one that leads out of the project is an error rather
+            // than silently missing files.
+            if entry.path_is_symlink() && entry.depth() > 0 {
+                if let Ok(real) = path.canonicalize() {
+                    if real.is_dir() && !real.starts_with(&root) {
+                        steps.push(Step::Problem(
+                            Diagnostic::new(
+                                Some(Span::new(relative(&root, path), 1, 1)),
+                                format!(
+                                    "this folder is a link to {}, outside the project folder",
+                                    real.display()
+                                ),
+                            )
+                            .expected("project files inside the project folder; copy the folder in instead of linking it"),
+                        ));
+                        continue;
+                    }
+                }
             }
+            if !(ext == "yaml" || ext == "yml") || entry.file_type().is_dir() || entry.depth() == 0
+            {
+                continue;
+            }
+            let rel = relative(&root, path);
+            if &*rel == "project.yaml" {
+                continue;
+            }
+            // An external module's manifest named in project.yaml is not an item.
+            if meta.modules.iter().any(|m| {
+                let m = m.trim().trim_start_matches("./").trim_end_matches('/');
+                &*rel == m || *rel == *format!("{m}/module.yaml")
+            }) {
+                continue;
+            }
+            if entry.path_is_symlink() && path.is_dir() {
+                continue;
+            }
+            steps.push(Step::File {
+                path: path.to_path_buf(),
+                rel,
+                linked: entry.path_is_symlink(),
+            });
         }
-        if !(ext == "yaml" || ext == "yml") || entry.file_type().is_dir() || entry.depth() == 0 {
-            continue;
-        }
-        let rel = relative(&root, path);
-        if &*rel == "project.yaml" {
-            continue;
-        }
-        // An external module's manifest named in project.yaml is not an item.
-        if meta.modules.iter().any(|m| {
-            let m = m.trim().trim_start_matches("./").trim_end_matches('/');
-            &*rel == m || *rel == *format!("{m}/module.yaml")
-        }) {
-            continue;
-        }
-        if entry.path_is_symlink() && path.is_dir() {
-            continue;
-        }
-        steps.push(Step::File {
-            path: path.to_path_buf(),
-            rel,
-            linked: entry.path_is_symlink(),
-        });
-    }
+        steps
+    };
+    let (steps, index) = rayon::join(list_files, load_index);
+    let index_read = index;
+    let index = index_read.as_ref();
     enum Read {
         Reused(Box<Reused>),
         Parsed(String, Result<Option<Node>, Diagnostic>),
@@ -657,6 +668,7 @@ pub fn load_indexed(
         },
         out,
         seen,
+        index_read,
     ))
 }
 
