@@ -204,13 +204,17 @@ pub fn update_dir(
                 let old = target.join(name);
                 if fs::hard_link(&old, &path).is_err() {
                     fs::copy(&old, &path)?;
-                    to_sync.push(path);
+                    if sync_each {
+                        to_sync.push(path);
+                    }
                 }
             }
             Update::Write(bytes) => {
                 remove_any(&path)?;
                 fs::write(&path, bytes)?;
-                to_sync.push(path);
+                if sync_each {
+                    to_sync.push(path);
+                }
             }
         }
     }
