@@ -1,6 +1,6 @@
 //! Settings of the memory allocator (mimalloc) that the binary and the
-//! benchmark use for a package build, so that its peak resident size stays
-//! near what is in use without costing layout time.
+//! benchmark use: small pages for every command, and for a package build a
+//! peak resident size near what is in use without costing layout time.
 //!
 //! mimalloc's defaults keep freed memory for a second and commit whole
 //! arenas ahead of use; over a build with two threads that held about

@@ -19,6 +19,23 @@ pub trait StoredForm: Sized {
     fn decode(bytes: &[u8]) -> Result<Self, postcard::Error>;
 }
 
+/// Implements [`StoredForm`] for types stored as their own postcard form
+/// (their serde form keeps every value exactly).
+macro_rules! stored_as_postcard {
+    ($($stored:ty),+ $(,)?) => {$(
+        impl $crate::deferred::StoredForm for $stored {
+            fn encode(&self) -> Vec<u8> {
+                postcard::to_allocvec(self).expect("a value of this build encodes")
+            }
+
+            fn decode(bytes: &[u8]) -> Result<$stored, postcard::Error> {
+                postcard::from_bytes(bytes)
+            }
+        }
+    )+};
+}
+pub(crate) use stored_as_postcard;
+
 /// A value, or the bytes it is decoded from when first looked at. Clones
 /// share the value (or the bytes and, once decoded, the value).
 pub struct Deferred<T>(Arc<Inner<T>>);

@@ -13,7 +13,7 @@ use packwright_api::{Node, NodeValue, Span, UnitSystem};
 use rayon::prelude::*;
 use walkdir::WalkDir;
 
-use crate::deferred::{Deferred, StoredForm};
+use crate::deferred::Deferred;
 use crate::diagnostic::{Diagnostic, Diagnostics};
 use crate::index::Stamp;
 use crate::item_index::{ItemIndex, Reused};
@@ -128,15 +128,7 @@ pub struct WrittenInputs {
     pub criteria: Vec<(Node, Node)>,
 }
 
-impl StoredForm for WrittenInputs {
-    fn encode(&self) -> Vec<u8> {
-        postcard::to_allocvec(self).expect("nodes encode")
-    }
-
-    fn decode(bytes: &[u8]) -> Result<WrittenInputs, postcard::Error> {
-        postcard::from_bytes(bytes)
-    }
-}
+crate::deferred::stored_as_postcard!(WrittenInputs);
 
 /// A loaded project.
 #[derive(Debug, Clone)]
@@ -566,16 +558,17 @@ pub fn load_indexed(
         steps
     };
     let (steps, index) = rayon::join(list_files, load_index);
-    let index_read = index;
-    let index = index_read.as_ref();
     enum Read {
         Reused(Box<Reused>),
         Parsed(String, Result<Option<Node>, Diagnostic>),
     }
     /// A file's stamp (when it may be recorded) and what was read.
     type Stamped = (Option<Stamp>, Result<Read, Diagnostic>);
-    let indexed =
-        |rel: &Arc<str>, linked: bool| index.filter(|_| !linked && !rel.starts_with("materials/"));
+    let indexed = |rel: &Arc<str>, linked: bool| {
+        index
+            .as_ref()
+            .filter(|_| !linked && !rel.starts_with("materials/"))
+    };
     let read: Vec<Option<Stamped>> = steps
         .par_iter()
         .map(|step| match step {
@@ -668,7 +661,7 @@ pub fn load_indexed(
         },
         out,
         seen,
-        index_read,
+        index,
     ))
 }
 

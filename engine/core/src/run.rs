@@ -15,7 +15,7 @@ use packwright_api::{
 use rayon::prelude::*;
 use sha2::{Digest, Sha256};
 
-use crate::deferred::{Deferred, StoredForm};
+use crate::deferred::Deferred;
 use crate::registry::Registry;
 use crate::resolve::{Plan, PlannedItem};
 
@@ -102,25 +102,7 @@ impl SharedOutcome {
     }
 }
 
-impl StoredForm for Outcome {
-    fn encode(&self) -> Vec<u8> {
-        postcard::to_allocvec(self).expect("an outcome encodes")
-    }
-
-    fn decode(bytes: &[u8]) -> Result<Outcome, postcard::Error> {
-        postcard::from_bytes(bytes)
-    }
-}
-
-impl StoredForm for BTreeMap<String, Measure> {
-    fn encode(&self) -> Vec<u8> {
-        postcard::to_allocvec(self).expect("outputs encode")
-    }
-
-    fn decode(bytes: &[u8]) -> Result<BTreeMap<String, Measure>, postcard::Error> {
-        postcard::from_bytes(bytes)
-    }
-}
+crate::deferred::stored_as_postcard!(Outcome, BTreeMap<String, Measure>);
 
 impl From<Outcome> for SharedOutcome {
     fn from(outcome: Outcome) -> SharedOutcome {

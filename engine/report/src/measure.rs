@@ -34,13 +34,23 @@ fn body_font(bold: bool) -> Option<&'static Font> {
         .as_ref()
 }
 
+/// The body font's face, parsed once: the engine measures every name and
+/// value of a package with it.
+fn body_face(bold: bool) -> Option<&'static ttf_parser::Face<'static>> {
+    static REGULAR: OnceLock<Option<ttf_parser::Face<'static>>> = OnceLock::new();
+    static BOLD: OnceLock<Option<ttf_parser::Face<'static>>> = OnceLock::new();
+    let cell = if bold { &BOLD } else { &REGULAR };
+    cell.get_or_init(|| {
+        let font = body_font(bold)?;
+        ttf_parser::Face::parse(font.data().as_slice(), font.index()).ok()
+    })
+    .as_ref()
+}
+
 /// The width of `text` set on one line in the body font, in em of the text
 /// size (so the same at any size).
 pub fn em_width(text: &str, bold: bool) -> f64 {
-    let Some(font) = body_font(bold) else {
-        return text.chars().count() as f64 * MISSING_GLYPH_EM;
-    };
-    let Ok(face) = ttf_parser::Face::parse(font.data(), font.index()) else {
+    let Some(face) = body_face(bold) else {
         return text.chars().count() as f64 * MISSING_GLYPH_EM;
     };
     let per_em = f64::from(face.units_per_em());
@@ -80,7 +90,7 @@ mod tests {
     /// an `m` is wider than an `i`, bold wider than regular, widths add up.
     #[test]
     fn widths_come_from_the_embedded_body_font() {
-        assert!(body_font(false).is_some() && body_font(true).is_some());
+        assert!(body_face(false).is_some() && body_face(true).is_some());
         let (m, i) = (em_width("m", false), em_width("i", false));
         assert!(m > 2.0 * i && m < 1.0, "m {m} em, i {i} em");
         assert!(em_width("mass_flow", true) > em_width("mass_flow", false));
