@@ -19,15 +19,17 @@
 //! file must never hold bytes that fail to decode: it is checksummed
 //! (CRC-32) and headed by the identity of the build that wrote it (an
 //! outcome's layout may differ in a rebuilt tool of the same version), and
-//! a file that fails either is ignored whole, which costs only time. Each
-//! entry holds the outputs alone beside the whole outcome, because the
-//! outputs of a linked item enter the digests of the items that link to it.
+//! what fails either is ignored, which costs only time (see
+//! [`crate::framed`], whose journal lets a run append only its new
+//! outcomes). Each entry holds the outputs alone beside the whole outcome,
+//! because the outputs of a linked item enter the digests of the items
+//! that link to it.
 
-use std::collections::HashMap;
 use std::fs;
 use std::path::{Path, PathBuf};
 use std::sync::OnceLock;
 
+use crate::fast::HashMap;
 use crate::framed;
 use crate::run::{Encoded, OutcomeStore, RunOutcome, SharedOutcome};
 
@@ -39,7 +41,7 @@ const OUTCOMES_FILE: &str = "outcomes.bin";
 
 /// First bytes of the outcomes file; a new layout gets a new tag, so an old
 /// file is ignored rather than misread.
-const OUTCOMES_MAGIC: &[u8; 16] = b"packwright-out-2";
+const OUTCOMES_MAGIC: &[u8; 16] = b"packwright-out-3";
 
 /// Names in the cache folder that [`Cache::save`] keeps; anything else is
 /// an older layout's leftover (the per-digest `.json` files) and goes.
@@ -63,52 +65,59 @@ pub struct Cache {
 /// Where an entry's outputs and whole outcome lie in the file.
 type Ranges = (std::ops::Range<usize>, std::ops::Range<usize>);
 
-#[derive(Debug)]
+#[derive(Debug, Default)]
 struct Stored {
     bytes: Encoded,
     entries: HashMap<String, Ranges>,
+    /// The file as read, for appending to it.
+    shape: Option<framed::Shape>,
 }
 
 impl Stored {
     fn read(path: &Path) -> Stored {
-        let bytes = fs::read(path).unwrap_or_default();
-        let entries = parse_entries(&bytes).unwrap_or_default();
+        let Some(journal) = framed::Journal::read(path, OUTCOMES_MAGIC) else {
+            return Stored::default();
+        };
+        let entries = parse_entries(&journal);
         Stored {
-            bytes: bytes.into(),
+            bytes: journal.bytes.clone(),
             entries,
+            shape: Some(journal.shape().clone()),
         }
     }
 }
 
-/// The entries of an outcomes file: after the framing (see
-/// [`crate::framed`]), repeated `[digest][outputs][outcome]` parts. A
-/// truncated, damaged or foreign file, or one another build wrote, gives
-/// `None` (and so no hits).
-fn parse_entries(bytes: &[u8]) -> Option<HashMap<String, Ranges>> {
-    let mut at = framed::open(bytes, OUTCOMES_MAGIC)?;
-    let mut entries = HashMap::new();
-    while at < bytes.len() {
-        let digest = framed::read_part(bytes, &mut at)?;
-        let digest = std::str::from_utf8(&bytes[digest]).ok()?;
-        let outputs = framed::read_part(bytes, &mut at)?;
-        let full = framed::read_part(bytes, &mut at)?;
-        entries.insert(digest.to_string(), (outputs, full));
-    }
-    Some(entries)
+/// The entries of an outcomes file: each digest's value is two parts, the
+/// outputs and the whole outcome. A value that does not split so is left
+/// out (no hit).
+fn parse_entries(journal: &framed::Journal) -> HashMap<String, Ranges> {
+    let bytes = &journal.bytes;
+    journal
+        .entries()
+        .filter_map(|(digest, value)| {
+            let mut at = value.start;
+            let outputs = framed::read_part(bytes, &mut at)?;
+            let full = framed::read_part(bytes, &mut at)?;
+            (at == value.end).then(|| (digest.to_string(), (outputs, full)))
+        })
+        .collect()
 }
 
-/// A new outcomes file's bytes from its entries (digest, encoded outputs,
-/// encoded outcome).
-fn outcomes_file<'a>(
-    entries: impl Iterator<Item = (&'a str, &'a [u8], &'a [u8])>,
-) -> Option<Vec<u8>> {
-    let mut out = framed::begin(OUTCOMES_MAGIC)?;
-    for (digest, outputs, full) in entries {
-        framed::push_part(&mut out, digest.as_bytes());
-        framed::push_part(&mut out, outputs);
-        framed::push_part(&mut out, full);
+/// An entry's value: the encoded outputs and the encoded outcome.
+fn entry_value(outputs: &[u8], full: &[u8]) -> Vec<u8> {
+    let mut value = Vec::with_capacity(outputs.len() + full.len() + 8);
+    for part in [outputs, full] {
+        value.extend_from_slice(&(part.len() as u32).to_le_bytes());
+        value.extend_from_slice(part);
     }
-    Some(framed::finish(out))
+    value
+}
+
+/// An outcome's entry value, encoded now.
+fn encode_entry(run: &crate::run::ItemRun) -> Option<Vec<u8>> {
+    let outputs = postcard::to_allocvec(&run.outcome.outputs).ok()?;
+    let full = postcard::to_allocvec(&*run.outcome).ok()?;
+    Some(entry_value(&outputs, &full))
 }
 
 impl Cache {
@@ -130,10 +139,11 @@ impl Cache {
             .get_or_init(|| Stored::read(&self.dir.join(OUTCOMES_FILE)))
     }
 
-    /// Stores every outcome of a run and forgets entries that no current
-    /// item uses, so the file does not grow without bound. The file is
-    /// rewritten only when its contents change. Errors are ignored on
-    /// purpose: a cache that cannot be written only costs time.
+    /// Stores every outcome of a run: the new ones are appended to the
+    /// file, which is written whole, forgetting the entries no current item
+    /// uses, once those outnumber the rest (so it does not grow without
+    /// bound). Errors are ignored on purpose: a cache that cannot be
+    /// written only costs time.
     pub fn save(&self, outcome: &RunOutcome) {
         if fs::create_dir_all(&self.dir).is_err() {
             return;
@@ -147,33 +157,43 @@ impl Cache {
             .collect();
         wanted.sort_by(|a, b| a.0.cmp(b.0));
         wanted.dedup_by(|a, b| a.0 == b.0);
-        let unchanged = wanted.len() == stored.entries.len()
-            && wanted.iter().all(|(d, _)| stored.entries.contains_key(*d));
-        if unchanged {
-            return;
+        let mut changes = framed::Records::new();
+        for (digest, run) in &wanted {
+            if !stored.entries.contains_key(*digest) {
+                let Some(value) = encode_entry(run) else {
+                    return;
+                };
+                changes.set(digest, &value);
+            }
         }
-        let encoded: Vec<(&str, Vec<u8>, Vec<u8>)> = wanted
-            .iter()
-            .filter(|(digest, _)| !stored.entries.contains_key(*digest))
-            .filter_map(|(digest, run)| {
-                let outputs = postcard::to_allocvec(&run.outcome.outputs).ok()?;
-                let full = postcard::to_allocvec(&*run.outcome).ok()?;
-                Some((*digest, outputs, full))
-            })
-            .collect();
-        let kept = wanted.iter().filter_map(|(digest, _)| {
-            let (outputs, full) = stored.entries.get(*digest)?;
-            let bytes = &stored.bytes;
-            Some((*digest, &bytes[outputs.clone()], &bytes[full.clone()]))
-        });
-        let new = encoded
-            .iter()
-            .map(|(digest, outputs, full)| (*digest, &outputs[..], &full[..]));
-        let mut entries: Vec<(&str, &[u8], &[u8])> = kept.chain(new).collect();
-        entries.sort_by(|a, b| a.0.cmp(b.0));
-        if let Some(out) = outcomes_file(entries.into_iter()) {
-            let _ = crate::fsio::write_file_unsynced(&self.dir.join(OUTCOMES_FILE), &out);
-        }
+        // Written whole, the file forgets the outcomes no current item uses.
+        let whole = || {
+            let mut all = framed::Records::new();
+            for (digest, run) in &wanted {
+                let value = match stored.entries.get(*digest) {
+                    Some((outputs, full)) => Some(entry_value(
+                        &stored.bytes[outputs.clone()],
+                        &stored.bytes[full.clone()],
+                    )),
+                    None => encode_entry(run),
+                };
+                if let Some(value) = value {
+                    all.set(digest, &value);
+                }
+            }
+            all
+        };
+        let path = self.dir.join(OUTCOMES_FILE);
+        let old = stored.shape.as_ref();
+        let _ = framed::save(
+            &path,
+            OUTCOMES_MAGIC,
+            &[],
+            old,
+            wanted.len(),
+            changes,
+            whole,
+        );
     }
 
     /// Removes what an older layout of the cache left (one JSON file per
@@ -214,17 +234,21 @@ mod tests {
     use super::*;
 
     #[test]
-    fn a_damaged_outcomes_file_gives_no_hits() {
-        let good = outcomes_file([("sha256:ab", &b"o"[..], &b"xyz"[..])].into_iter())
-            .expect("the test binary has an identity");
-        assert!(parse_entries(&good).is_some_and(|e| e.len() == 1));
-        let mut bytes = good.clone();
-        bytes.pop();
-        assert!(parse_entries(&bytes).is_none(), "truncated");
-        let mut bytes = good.clone();
-        let last = bytes.len() - 2;
-        bytes[last] ^= 1;
-        assert!(parse_entries(&bytes).is_none(), "one bit changed");
-        assert!(parse_entries(b"something else entirely").is_none());
+    fn a_value_that_does_not_split_gives_no_hit() {
+        let dir = tempfile::tempdir().expect("temp dir");
+        let path = dir.path().join(OUTCOMES_FILE);
+        let whole = || {
+            let mut r = framed::Records::new();
+            r.set("sha256:ab", &entry_value(b"o", b"xyz"));
+            r.set("sha256:cd", b"not two parts");
+            r
+        };
+        let none = framed::Records::new();
+        framed::save(&path, OUTCOMES_MAGIC, &[], None, 2, none, whole).expect("saves");
+        let stored = Stored::read(&path);
+        assert_eq!(stored.entries.len(), 1);
+        let (outputs, full) = &stored.entries["sha256:ab"];
+        assert_eq!(&stored.bytes[outputs.clone()], b"o");
+        assert_eq!(&stored.bytes[full.clone()], b"xyz");
     }
 }

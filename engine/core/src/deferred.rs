@@ -151,20 +151,63 @@ impl<T: StoredForm> serde::Serialize for Deferred<T> {
 
 impl<'de, T: StoredForm> serde::Deserialize<'de> for Deferred<T> {
     fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Deferred<T>, D::Error> {
-        struct Bytes;
-        impl serde::de::Visitor<'_> for Bytes {
-            type Value = Encoded;
+        struct Bytes<T>(std::marker::PhantomData<T>);
+        impl<'de, T: StoredForm> serde::de::Visitor<'de> for Bytes<T> {
+            type Value = Deferred<T>;
             fn expecting(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
                 f.write_str("stored bytes")
             }
-            fn visit_bytes<E: serde::de::Error>(self, bytes: &[u8]) -> Result<Encoded, E> {
-                Ok(bytes.into())
+            fn visit_borrowed_bytes<E: serde::de::Error>(
+                self,
+                bytes: &'de [u8],
+            ) -> Result<Deferred<T>, E> {
+                Ok(match within_shared(bytes) {
+                    Some((shared, range)) => Deferred::in_bytes(shared, range),
+                    None => self.visit_bytes(bytes)?,
+                })
+            }
+            fn visit_bytes<E: serde::de::Error>(self, bytes: &[u8]) -> Result<Deferred<T>, E> {
+                Ok(Deferred::in_bytes(bytes.into(), 0..bytes.len()))
             }
         }
-        let bytes = d.deserialize_bytes(Bytes)?;
-        let all = 0..bytes.len();
-        Ok(Deferred::in_bytes(bytes, all))
+        d.deserialize_bytes(Bytes(std::marker::PhantomData))
     }
+}
+
+thread_local! {
+    /// The bytes being decoded by [`decoding_within`] on this thread.
+    static SHARED: std::cell::RefCell<Option<Encoded>> = const { std::cell::RefCell::new(None) };
+}
+
+/// Runs `decode`, which decodes from (a part of) `shared`: the deferred
+/// values it meets are kept as ranges of `shared` rather than copied. A
+/// rerun takes a thousand items from the item index, each with two
+/// deferred values; copying them was a few thousand allocations and
+/// megabytes of fresh memory for every run. (Serde's derived decoders
+/// pass no context down, hence the thread's own slot.)
+pub(crate) fn decoding_within<R>(shared: &Encoded, decode: impl FnOnce() -> R) -> R {
+    /// Puts the slot back as it was, also when `decode` panics.
+    struct Restore(Option<Encoded>);
+    impl Drop for Restore {
+        fn drop(&mut self) {
+            let previous = self.0.take();
+            SHARED.with(|s| *s.borrow_mut() = previous);
+        }
+    }
+    let _restore = Restore(SHARED.with(|s| s.replace(Some(shared.clone()))));
+    decode()
+}
+
+/// The shared bytes and the range in them of `bytes`, when `bytes` lies
+/// within the bytes [`decoding_within`] decodes on this thread.
+fn within_shared(bytes: &[u8]) -> Option<(Encoded, Range<usize>)> {
+    SHARED.with(|s| {
+        let s = s.borrow();
+        let shared = s.as_ref()?;
+        let start = (bytes.as_ptr() as usize).checked_sub(shared.as_ptr() as usize)?;
+        let end = start.checked_add(bytes.len())?;
+        (end <= shared.len()).then(|| (shared.clone(), start..end))
+    })
 }
 
 #[cfg(test)]
@@ -197,6 +240,27 @@ mod tests {
         assert!(!back.is_decoded());
         assert_eq!(*back, value);
         assert!(back.is_decoded());
+    }
+
+    #[test]
+    fn a_value_decoded_within_shared_bytes_keeps_a_range_of_them() {
+        let value = Pair(7, "belt".into());
+        let bytes: Encoded = postcard::to_allocvec(&Deferred::new(value.clone()))
+            .expect("encodes")
+            .into();
+        let back: Deferred<Pair> =
+            decoding_within(&bytes, || postcard::from_bytes(&bytes)).expect("decodes");
+        let (shared, range) = back.0.stored.clone().expect("stored");
+        assert!(Arc::ptr_eq(&shared, &bytes), "no copy");
+        assert_eq!(range.end, bytes.len());
+        assert_eq!(*back, value);
+        // Outside, the bytes are copied as before.
+        let copied: Deferred<Pair> = postcard::from_bytes(&bytes).expect("decodes");
+        assert!(!Arc::ptr_eq(
+            &copied.0.stored.clone().expect("stored").0,
+            &bytes
+        ));
+        assert_eq!(*copied, value);
     }
 
     #[test]

@@ -9,6 +9,7 @@
 
 use std::fs;
 use std::io::{self, Write};
+use std::os::unix::ffi::OsStrExt;
 use std::path::{Path, PathBuf};
 
 fn hidden_sibling(target: &Path, tag: &str) -> io::Result<PathBuf> {
@@ -122,18 +123,26 @@ pub enum Update<'a> {
     Write(&'a [u8]),
 }
 
-/// The inode number of every entry of a folder, by name (empty when the
-/// folder is missing).
-fn inodes(dir: &Path) -> std::collections::HashMap<String, u64> {
-    use std::os::unix::fs::DirEntryExt;
-    fs::read_dir(dir)
-        .map(|entries| {
-            entries
-                .flatten()
-                .map(|e| (e.file_name().to_string_lossy().into_owned(), e.ino()))
-                .collect()
-        })
-        .unwrap_or_default()
+/// Calls `each` with the name and inode number of every entry of a folder
+/// (none when the folder is missing), without making a string of each name.
+fn each_entry(dir: &Path, mut each: impl FnMut(&[u8], u64)) -> io::Result<()> {
+    use rustix::fs::{Mode, OFlags, RawDir};
+    let flags = OFlags::RDONLY | OFlags::DIRECTORY | OFlags::CLOEXEC;
+    let fd = match rustix::fs::open(dir, flags, Mode::empty()) {
+        Ok(fd) => fd,
+        Err(rustix::io::Errno::NOENT) => return Ok(()),
+        Err(e) => return Err(e.into()),
+    };
+    let mut buf = Vec::with_capacity(64 * 1024);
+    let mut entries = RawDir::new(&fd, buf.spare_capacity_mut());
+    while let Some(entry) = entries.next() {
+        let entry = entry?;
+        let name = entry.file_name().to_bytes();
+        if name != b"." && name != b".." {
+            each(name, entry.ino());
+        }
+    }
+    Ok(())
 }
 
 fn remove_any(path: &Path) -> io::Result<()> {
@@ -156,8 +165,9 @@ const SYNC_EACH_UP_TO: usize = 16;
 /// writes (in the cache); after a call it holds the version of `target`
 /// before it. The next call turns the spare into the new version: files
 /// that are the same inode in both folders are left alone, kept files are
-/// hard-linked from `target`, new contents are written as new files (never
-/// into an inode `target` shares), and stale entries go. Then one
+/// hard-linked from `target`, new contents are written over the spare's
+/// own copy of the file (an inode with no other name) or as new files,
+/// never into an inode `target` shares, and stale entries go. Then one
 /// `renameat2(RENAME_EXCHANGE)` swaps the two folders, so `target` holds
 /// the complete old or the complete new version at every moment, as
 /// [`replace_dir`] guarantees, without a thousand links and unlinks for a
@@ -176,13 +186,26 @@ pub fn update_dir(
 ) -> io::Result<Vec<bool>> {
     clean_leftovers(target);
     fs::create_dir_all(spare)?;
-    let in_spare = inodes(spare);
-    let in_target = inodes(target);
-    let wanted: std::collections::HashSet<&str> = files.iter().map(|(n, _)| n.as_str()).collect();
-    for name in in_spare.keys() {
-        if !wanted.contains(name.as_str()) {
-            remove_any(&spare.join(name))?;
+    let position: crate::fast::HashMap<&[u8], usize> = files
+        .iter()
+        .enumerate()
+        .map(|(i, (name, _))| (name.as_bytes(), i))
+        .collect();
+    // The inode each of `files` has in the spare and in the target.
+    let mut in_spare: Vec<Option<u64>> = vec![None; files.len()];
+    let mut in_target: Vec<Option<u64>> = vec![None; files.len()];
+    let mut stale = Vec::new();
+    each_entry(spare, |name, ino| match position.get(name) {
+        Some(&i) => in_spare[i] = Some(ino),
+        None => stale.push(std::ffi::OsStr::from_bytes(name).to_owned()),
+    })?;
+    each_entry(target, |name, ino| {
+        if let Some(&i) = position.get(name) {
+            in_target[i] = Some(ino);
         }
+    })?;
+    for name in stale {
+        remove_any(&spare.join(name))?;
     }
     let written = files
         .iter()
@@ -191,12 +214,12 @@ pub fn update_dir(
     let sync_each = written <= SYNC_EACH_UP_TO;
     let mut touched = vec![true; files.len()];
     let mut to_sync = Vec::new();
-    for ((name, update), touched) in files.iter().zip(&mut touched) {
+    for (i, ((name, update), touched)) in files.iter().zip(&mut touched).enumerate() {
         let path = spare.join(name);
+        let shared = in_spare[i].is_some() && in_spare[i] == in_target[i];
         match update {
             Update::Keep => {
-                let same = in_spare.contains_key(name) && in_spare.get(name) == in_target.get(name);
-                if same {
+                if shared {
                     *touched = false;
                     continue;
                 }
@@ -210,8 +233,11 @@ pub fn update_dir(
                 }
             }
             Update::Write(bytes) => {
-                remove_any(&path)?;
-                fs::write(&path, bytes)?;
+                let own = in_spare[i].is_some() && !shared;
+                if !(own && overwrite_alone(&path, bytes)?) {
+                    remove_any(&path)?;
+                    fs::write(&path, bytes)?;
+                }
                 if sync_each {
                     to_sync.push(path);
                 }
@@ -259,6 +285,29 @@ pub fn update_dir(
         .collect();
     sync_all(&parents)?;
     Ok(touched)
+}
+
+/// Writes `bytes` over the file at `path` in place when it is a regular
+/// file with no other name (so no other folder sees the change); says
+/// whether it did. Reusing the spare's own copy, and its blocks, spares
+/// the file system a new inode and freeing the old one's blocks: on ext4
+/// without a journal, finding a free inode skips those freed in the last
+/// minute, and a new file cost as much as stamping a hundred.
+fn overwrite_alone(path: &Path, bytes: &[u8]) -> io::Result<bool> {
+    use std::os::unix::fs::{FileExt, MetadataExt};
+    let file = match fs::OpenOptions::new().write(true).open(path) {
+        Ok(f) => f,
+        Err(_) => return Ok(false),
+    };
+    let meta = file.metadata()?;
+    if !meta.is_file() || meta.nlink() != 1 {
+        return Ok(false);
+    }
+    file.write_all_at(bytes, 0)?;
+    if meta.len() > bytes.len() as u64 {
+        file.set_len(bytes.len() as u64)?;
+    }
+    Ok(true)
 }
 
 /// Flushes files and folders to disk, all at once.
@@ -394,5 +443,26 @@ mod tests {
             [false, true, true]
         );
         assert_eq!(fs::read(target.join("d.yaml")).unwrap(), b"4");
+        // Two writes of one file: the first makes a new file (the spare's
+        // copy is the one `target` holds), the second writes over the
+        // spare's own copy, which `target` no longer holds.
+        use std::os::unix::fs::MetadataExt;
+        let ino = |dir: &Path| fs::metadata(dir.join("b.yaml")).unwrap().ino();
+        let shared_before = ino(&target);
+        for content in [&b"5"[..], b"66"] {
+            let update = vec![
+                ("a.yaml".to_string(), Update::Keep),
+                ("b.yaml".to_string(), Update::Write(content)),
+                ("d.yaml".to_string(), Update::Keep),
+            ];
+            assert_eq!(
+                update_dir(&target, &spare, &update).unwrap(),
+                [false, true, false]
+            );
+            assert_eq!(fs::read(target.join("b.yaml")).unwrap(), content);
+        }
+        assert_eq!(ino(&target), shared_before, "written over in place");
+        assert_eq!(fs::read(spare.join("b.yaml")).unwrap(), b"5");
+        assert_eq!(fs::read(target.join("a.yaml")).unwrap(), b"1");
     }
 }

@@ -24,10 +24,11 @@
 //! ([`crate::deferred`]).
 //!
 //! The file is checksummed; a damaged, foreign or truncated index is
-//! ignored, so losing it costs only time. State:
-//! `.packwright-cache/items.bin`, written after a successful run.
+//! ignored, so losing it costs only time. It is a journal
+//! ([`crate::framed`]): a run appends the entries of the files it read.
+//! State: `.packwright-cache/items.bin`, written after a successful run.
 
-use std::collections::{BTreeMap, HashMap};
+use std::collections::BTreeMap;
 use std::path::Path;
 use std::sync::Arc;
 use std::time::{Duration, SystemTime, UNIX_EPOCH};
@@ -44,7 +45,7 @@ use crate::resolve::PlannedItem;
 pub const ITEMS_FILE: &str = "items.bin";
 
 /// First bytes of the file; a new layout gets a new tag.
-const MAGIC: &[u8; 16] = b"packwright-itm-2";
+const MAGIC: &[u8; 16] = b"packwright-itm-3";
 
 /// How long before the stat a file's last change must lie for its stamp to
 /// vouch for what is then read. Linux stamps files from a clock that moves
@@ -93,57 +94,39 @@ pub struct Reused {
 /// The index as read from disk.
 #[derive(Default)]
 pub struct ItemIndex {
-    bytes: Vec<u8>,
-    resolve_key: Hash,
-    /// Stamp and payload range by file (relative path).
-    entries: HashMap<String, (Stamp, usize, usize)>,
+    /// Each file's (relative path's) stamp and payload, as a journal
+    /// (see [`crate::framed`]) whose key is the resolve key.
+    journal: Option<framed::Journal>,
 }
 
 impl ItemIndex {
     /// The index in `cache_dir`, or an empty one when it is missing,
     /// damaged or written by another build of the tool.
     pub fn load(cache_dir: &Path) -> ItemIndex {
-        let bytes = std::fs::read(cache_dir.join(ITEMS_FILE)).unwrap_or_default();
-        ItemIndex::parse(bytes).unwrap_or_default()
-    }
-
-    /// Layout: the framing (see [`crate::framed`]), the resolve key, then
-    /// `[path][stamp and payload]` parts.
-    fn parse(bytes: Vec<u8>) -> Option<ItemIndex> {
-        let mut at = framed::open(&bytes, MAGIC)?;
-        let key = framed::read_part(&bytes, &mut at)?;
-        let resolve_key: Hash = bytes[key].try_into().ok()?;
-        let mut entries = HashMap::new();
-        while at < bytes.len() {
-            let rel = framed::read_part(&bytes, &mut at)?;
-            let rel = std::str::from_utf8(&bytes[rel]).ok()?;
-            let payload = framed::read_part(&bytes, &mut at)?;
-            let (stamp, rest) = postcard::take_from_bytes::<Stamp>(&bytes[payload.clone()]).ok()?;
-            entries.insert(
-                rel.to_string(),
-                (stamp, payload.end - rest.len(), payload.end),
-            );
+        ItemIndex {
+            journal: framed::Journal::read(&cache_dir.join(ITEMS_FILE), MAGIC),
         }
-        Some(ItemIndex {
-            bytes,
-            resolve_key,
-            entries,
-        })
     }
 
     /// The key the recorded resolved forms were made under.
     pub fn resolve_key(&self) -> Hash {
-        self.resolve_key
+        self.journal
+            .as_ref()
+            .and_then(|j| j.key().try_into().ok())
+            .unwrap_or_default()
     }
 
     /// The recorded item of file `rel`, when `stamp` (taken now) is the one
     /// it was recorded under.
     pub fn reuse(&self, rel: &str, stamp: &Stamp) -> Option<Reused> {
-        let (recorded, start, end) = self.entries.get(rel)?;
-        if recorded != stamp {
+        let (recorded, stored) = self.raw(rel)?;
+        if recorded != *stamp {
             return None;
         }
-        let stored: Stored = postcard::from_bytes(self.bytes.get(*start..*end)?).ok()?;
+        let journal = self.journal.as_ref()?;
+        let stored: Stored =
+            crate::deferred::decoding_within(&journal.bytes, || postcard::from_bytes(stored))
+                .ok()?;
         // Spans and the file name are the index key's: a renamed file is
         // another entry.
         (&*stored.item.file == rel).then_some(Reused {
@@ -152,10 +135,17 @@ impl ItemIndex {
         })
     }
 
-    /// The recorded bytes of file `rel`'s entry (stamp not included).
-    fn raw(&self, rel: &str) -> Option<(&Stamp, &[u8])> {
-        let (stamp, start, end) = self.entries.get(rel)?;
-        Some((stamp, self.bytes.get(*start..*end)?))
+    /// The recorded stamp of file `rel` and the rest of its entry.
+    fn raw(&self, rel: &str) -> Option<(Stamp, &[u8])> {
+        let journal = self.journal.as_ref()?;
+        let value = &journal.bytes[journal.get(rel)?];
+        postcard::take_from_bytes::<Stamp>(value).ok()
+    }
+
+    /// The whole recorded entry of file `rel` (stamp included).
+    fn entry(&self, rel: &str) -> Option<&[u8]> {
+        let journal = self.journal.as_ref()?;
+        Some(&journal.bytes[journal.get(rel)?])
     }
 }
 
@@ -178,9 +168,9 @@ pub struct Seen {
     pub index: ItemIndex,
     /// The stamp of each item file read or reused, taken before reading;
     /// files that had not settled and linked files are left out.
-    pub stamps: HashMap<Arc<str>, Stamp>,
+    pub stamps: crate::fast::HashMap<Arc<str>, Stamp>,
     /// Files whose item was taken from the index.
-    pub reused: std::collections::HashSet<Arc<str>>,
+    pub reused: crate::fast::HashSet<Arc<str>>,
     /// [`resolve_key`] of this run.
     pub resolve_key: Hash,
 }
@@ -195,56 +185,62 @@ impl Seen {
         items: &[ItemFile],
         planned: impl Fn(&str) -> Option<&'a PlannedItem>,
     ) {
-        let same_key = self.index.resolve_key == self.resolve_key;
+        let same_key = self.index.resolve_key() == self.resolve_key;
         let recorded: Vec<&ItemFile> = items
             .iter()
             .filter(|i| self.stamps.contains_key(&i.file))
             .collect();
-        // Entries of files gone or changed stay until there is something
-        // new to record: their stamps no longer match anything, and a
-        // one-file edit then costs no rewrite of the whole index.
-        let unchanged = same_key
-            && !self.index.bytes.is_empty()
-            && recorded.iter().all(|i| self.reused.contains(&i.file));
-        if unchanged {
-            return;
-        }
-        let Some(mut out) = framed::begin(MAGIC) else {
-            return;
-        };
-        framed::push_part(&mut out, &self.resolve_key);
-        for item in recorded {
-            let rel: &str = &item.file;
-            let stamp = &self.stamps[&item.file];
-            framed::push_part(&mut out, rel.as_bytes());
-            let kept = (same_key && self.reused.contains(&item.file))
-                .then(|| self.index.raw(rel))
+        // An entry is kept as recorded when its item was taken from it (so
+        // under the stamp recorded); entries of files gone or changed stay
+        // until the file is written whole: their stamps no longer match
+        // anything.
+        let kept = |item: &ItemFile| {
+            (same_key && self.reused.contains(&item.file))
+                .then(|| self.index.entry(&item.file))
                 .flatten()
-                .filter(|(s, _)| *s == stamp);
-            let payload = match kept {
-                Some((_, raw)) => {
-                    let mut p = postcard::to_allocvec(stamp).unwrap_or_default();
-                    p.extend_from_slice(raw);
-                    p
-                }
-                None => {
-                    let stored = Stored {
-                        item: item.clone(),
-                        planned: planned(&item.id).cloned(),
-                    };
-                    let (Ok(mut p), Ok(rest)) =
-                        (postcard::to_allocvec(stamp), postcard::to_allocvec(&stored))
-                    else {
-                        return;
-                    };
-                    p.extend_from_slice(&rest);
-                    p
-                }
+        };
+        let fresh = |item: &ItemFile| {
+            let stored = Stored {
+                item: item.clone(),
+                planned: planned(&item.id).cloned(),
             };
-            framed::push_part(&mut out, &payload);
+            let stamp = &self.stamps[&item.file];
+            let mut entry = postcard::to_allocvec(stamp).ok()?;
+            entry.extend_from_slice(&postcard::to_allocvec(&stored).ok()?);
+            Some(entry)
+        };
+        let mut changes = framed::Records::new();
+        for item in &recorded {
+            if !(same_key && self.reused.contains(&item.file)) {
+                let Some(entry) = fresh(item) else { return };
+                changes.set(&item.file, &entry);
+            }
         }
-        let out = framed::finish(out);
-        let _ = crate::fsio::write_file_unsynced(&cache_dir.join(ITEMS_FILE), &out);
+        let whole = || {
+            let mut all = framed::Records::new();
+            for item in &recorded {
+                match kept(item) {
+                    Some(entry) => all.set(&item.file, entry),
+                    None => {
+                        if let Some(entry) = fresh(item) {
+                            all.set(&item.file, &entry);
+                        }
+                    }
+                }
+            }
+            all
+        };
+        let old = self.index.journal.as_ref().map(|j| j.shape());
+        let path = cache_dir.join(ITEMS_FILE);
+        let _ = framed::save(
+            &path,
+            MAGIC,
+            &self.resolve_key,
+            old,
+            recorded.len(),
+            changes,
+            whole,
+        );
     }
 }
 
@@ -355,14 +351,6 @@ mod stored_inputs {
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    #[test]
-    fn a_damaged_index_is_empty() {
-        assert!(ItemIndex::parse(b"something else entirely".to_vec()).is_none());
-        let mut out = framed::begin(MAGIC).expect("the test binary has an identity");
-        framed::push_part(&mut out, b"a key too short");
-        assert!(ItemIndex::parse(framed::finish(out)).is_none());
-    }
 
     #[test]
     fn a_file_changed_just_now_has_not_settled() {

@@ -29,6 +29,17 @@ pub mod run;
 pub mod schema;
 pub mod yaml;
 
+/// Hash maps and sets keyed by ids, file names and digests: foldhash
+/// rather than the standard SipHash, which resists keys chosen to collide
+/// (no concern for a project's own names) and was a visible part of a
+/// rerun, which looks up every item several times.
+pub mod fast {
+    /// A hash map with foldhash.
+    pub type HashMap<K, V> = std::collections::HashMap<K, V, foldhash::fast::RandomState>;
+    /// A hash set with foldhash.
+    pub type HashSet<K> = std::collections::HashSet<K, foldhash::fast::RandomState>;
+}
+
 use std::collections::BTreeMap;
 use std::path::Path;
 
@@ -92,7 +103,7 @@ fn check_indexed(
     let (project, mut problems, loaded, index) =
         project::load_indexed(root, load_index).map_err(EngineError::BadInput)?;
     let mut seen = item_index::Seen::default();
-    let mut reused = std::collections::HashMap::new();
+    let mut reused = fast::HashMap::default();
     if let Some(index) = index {
         seen.resolve_key = item_index::resolve_key(registry, &project.materials);
         let same_key = index.resolve_key() == seen.resolve_key;
@@ -176,7 +187,7 @@ struct ResultFile {
 /// with what is on disk (by the index's digest when the stamp matches, by
 /// reading the file when not).
 fn result_file(
-    results: &Path,
+    results: &index::Folder,
     index: &index::Index,
     name: String,
     key: Option<index::Hash>,
@@ -198,12 +209,12 @@ fn result_file(
     }
     let bytes = text().into_bytes();
     let content = index::hash(&bytes);
-    let path = results.join(&name);
     let (on_disk, seen) = match verified {
         Some(entry) => (entry.content == content, Some(entry.stamp)),
         None => {
-            let seen = index::stamp_of(&path);
-            (std::fs::read(&path).is_ok_and(|old| old == bytes), seen)
+            let seen = results.stamp(&name);
+            let old = std::fs::read(results.path().join(&name));
+            (old.is_ok_and(|old| old == bytes), seen)
         }
     };
     ResultFile {
@@ -227,6 +238,25 @@ pub struct Computed {
     index: index::Index,
     store: cache::Cache,
     items: item_index::Seen,
+    /// The cache's lock, when it could be taken before `results/` was
+    /// looked at: no other run can then change it before this one writes.
+    lock: Option<std::fs::File>,
+}
+
+/// Takes the lock that keeps a second writer out of `results/` and the
+/// cache (released when the file is closed), waiting for another run to
+/// finish.
+fn lock_writers(cache_dir: &Path) -> std::io::Result<std::fs::File> {
+    std::fs::create_dir_all(cache_dir)?;
+    lock_existing(cache_dir)
+}
+
+/// [`lock_writers`] in a cache folder that exists (a run that fails does
+/// not leave one behind where there was none).
+fn lock_existing(cache_dir: &Path) -> std::io::Result<std::fs::File> {
+    let lock = std::fs::File::create(cache_dir.join(index::LOCK_FILE))?;
+    rustix::fs::flock(&lock, rustix::fs::FlockOperation::LockExclusive)?;
+    Ok(lock)
 }
 
 impl Computed {
@@ -238,22 +268,47 @@ impl Computed {
         let results = self.project.root.join("results");
         let cache_dir = self.store.dir();
         let io = |e: std::io::Error| EngineError::Io(format!("cannot write results/: {e}"));
-        std::fs::create_dir_all(cache_dir).map_err(io)?;
-        // Two runs at once would both rebuild the spare folder.
-        let lock = std::fs::File::create(cache_dir.join(index::LOCK_FILE)).map_err(io)?;
-        rustix::fs::flock(&lock, rustix::fs::FlockOperation::LockExclusive)
-            .map_err(|e| io(e.into()))?;
-        let moved = self
-            .files
-            .par_iter()
-            .any(|f| f.on_disk && index::stamp_of(&results.join(&f.name)) != f.seen);
-        if moved {
-            return Err(EngineError::Io(
-                "results/ changed while packwright ran (another run?); nothing was written, run again".into(),
-            ));
-        }
+        // Two runs at once would both rebuild the spare folder. A lock taken
+        // only now must see that no other run wrote `results/` since this
+        // one looked.
+        let _lock = match &self.lock {
+            Some(_) => None,
+            None => {
+                let lock = lock_writers(cache_dir).map_err(io)?;
+                let folder = index::Folder::open(&results);
+                let moved = self
+                    .files
+                    .par_iter()
+                    .any(|f| f.on_disk && folder.stamp(&f.name) != f.seen);
+                if moved {
+                    return Err(EngineError::Io(
+                        "results/ changed while packwright ran (another run?); nothing was written, run again".into(),
+                    ));
+                }
+                Some(lock)
+            }
+        };
+        // The outcomes and the item index do not depend on `results/`: they
+        // are saved while its files are written and flushed.
+        let (written, ()) = rayon::join(
+            || self.update_results(&results),
+            || {
+                self.store.save(&self.outcome);
+                self.items.save(cache_dir, &self.project.items, |id| {
+                    self.outcome.items.get(id).map(|run| &*run.item)
+                });
+            },
+        );
+        written
+    }
+
+    /// Makes `results/` hold this run's files, and records them in the
+    /// results index.
+    fn update_results(&self, results: &Path) -> Result<(), EngineError> {
+        let cache_dir = self.store.dir();
+        let io = |e: std::io::Error| EngineError::Io(format!("cannot write results/: {e}"));
         let all_there = self.files.iter().all(|f| f.on_disk)
-            && std::fs::read_dir(&results).is_ok_and(|d| d.count() == self.files.len());
+            && std::fs::read_dir(results).is_ok_and(|d| d.count() == self.files.len());
         // Which files have a new stamp: none when nothing was written.
         let mut touched = vec![false; self.files.len()];
         if !all_there {
@@ -269,53 +324,43 @@ impl Computed {
                 })
                 .collect();
             let spare = cache_dir.join(index::SPARE_FOLDER);
-            touched = match fsio::update_dir(&results, &spare, &updates) {
+            touched = match fsio::update_dir(results, &spare, &updates) {
                 Ok(touched) => touched,
                 Err(e) => {
                     // The spare folder may sit on another file system (a
                     // linked cache folder): write the folder whole instead.
                     let _ = std::fs::remove_dir_all(&spare);
-                    let whole = self.whole_files(&results).map_err(io)?;
-                    fsio::replace_dir(&results, &whole).map_err(|e2| {
+                    let whole = self.whole_files(results).map_err(io)?;
+                    fsio::replace_dir(results, &whole).map_err(|e2| {
                         EngineError::Io(format!("cannot write results/: {e2} (and {e})"))
                     })?;
                     vec![true; self.files.len()]
                 }
             };
         }
-        let mut index = index::Index::new();
-        let entries: Vec<Option<(String, index::Entry)>> = self
+        let folder = index::Folder::open(results);
+        let entries: Vec<Option<index::EntryRef<'_>>> = self
             .files
             .par_iter()
             .zip(&touched)
             .map(|(f, &touched)| {
                 // An untouched file's stamp was seen under the lock.
                 let stamp = if touched {
-                    index::stamp_of(&results.join(&f.name))
+                    folder.stamp(&f.name)
                 } else {
                     f.seen
                 };
-                stamp.map(|stamp| {
-                    (
-                        f.name.clone(),
-                        index::Entry {
-                            key: f.key,
-                            content: f.content,
-                            stamp,
-                            row: f.row.clone(),
-                        },
-                    )
+                stamp.map(|stamp| index::EntryRef {
+                    name: &f.name,
+                    key: f.key,
+                    content: f.content,
+                    stamp,
+                    row: f.row.as_deref(),
                 })
             })
             .collect();
-        index.files = entries.into_iter().flatten().collect();
-        if index != self.index {
-            index.save(cache_dir);
-        }
-        self.store.save(&self.outcome);
-        self.items.save(cache_dir, &self.project.items, |id| {
-            self.outcome.items.get(id).map(|run| &*run.item)
-        });
+        let entries: Vec<index::EntryRef<'_>> = entries.into_iter().flatten().collect();
+        index::Index::save(cache_dir, &self.index, &entries);
         Ok(())
     }
 
@@ -356,14 +401,32 @@ pub fn compute_project(
     if let Some(on_plan) = &options.on_plan {
         on_plan(plan.items.len());
     }
-    let outcome = run::run_with_progress(
-        &plan,
-        registry,
-        if options.fresh { None } else { Some(&store) },
-        options
-            .progress
-            .as_deref()
-            .map(|p| p as &(dyn Fn(&str) + Sync)),
+    // Taken before `results/` and its index are looked at, so that no
+    // other run writes them in between. Best effort: without a cache folder
+    // yet, or in a project this user cannot write, `write_results` takes
+    // the lock and checks that nothing moved (or reports why it cannot).
+    let lock = lock_existing(store.dir()).ok();
+    // The results index is read while the items run.
+    let (outcome, index) = rayon::join(
+        || {
+            run::run_with_progress(
+                &plan,
+                registry,
+                if options.fresh { None } else { Some(&store) },
+                options
+                    .progress
+                    .as_deref()
+                    .map(|p| p as &(dyn Fn(&str) + Sync)),
+            )
+        },
+        || {
+            // `--fresh` trusts nothing stored: every file is formatted again.
+            if options.fresh {
+                index::Index::new()
+            } else {
+                index::Index::load(store.dir())
+            }
+        },
     );
     let input_errors: Vec<Diagnostic> = outcome
         .failures
@@ -394,13 +457,7 @@ pub fn compute_project(
     if !outcome.failures.is_empty() || !outcome.skipped.is_empty() {
         return Err(EngineError::Calculation(outcome.failures, outcome.skipped));
     }
-    // `--fresh` trusts nothing stored: every file is formatted again.
-    let index = if options.fresh {
-        index::Index::new()
-    } else {
-        index::Index::load(store.dir())
-    };
-    let results_dir = project.root.join("results");
+    let results_dir = index::Folder::open(&project.root.join("results"));
     let keys = key_outputs(registry);
     let mut files: Vec<ResultFile> = outcome
         .items
@@ -445,6 +502,7 @@ pub fn compute_project(
         index,
         store,
         items,
+        lock,
     })
 }
 

@@ -5,7 +5,7 @@
 //! checked; its inputs are checked against the module in `resolve`).
 //! Owns no state: a [`Project`] is a value built from the files.
 
-use std::collections::{BTreeMap, HashMap};
+use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 use std::sync::Arc;
 
@@ -15,6 +15,7 @@ use walkdir::WalkDir;
 
 use crate::deferred::Deferred;
 use crate::diagnostic::{Diagnostic, Diagnostics};
+use crate::fast::HashMap;
 use crate::index::Stamp;
 use crate::item_index::{ItemIndex, Reused};
 use crate::resolve::PlannedItem;
@@ -356,6 +357,19 @@ fn read_file(
 }
 
 fn relative(root: &Path, path: &Path) -> Arc<str> {
+    // A path the walk made is the root, a slash and the rest: taken as it
+    // is, without splitting it into parts (a thousand files, every run).
+    #[cfg(unix)]
+    {
+        use std::os::unix::ffi::OsStrExt;
+        let (root, whole) = (root.as_os_str().as_bytes(), path.as_os_str().as_bytes());
+        let rest = whole.strip_prefix(root).and_then(|r| r.strip_prefix(b"/"));
+        if let Some(rest) = rest.filter(|r| !r.is_empty() && !r.ends_with(b"/")) {
+            if let Ok(text) = std::str::from_utf8(rest) {
+                return Arc::from(text);
+            }
+        }
+    }
     let rel = path.strip_prefix(root).unwrap_or(path);
     let parts: Vec<String> = rel
         .components()
@@ -476,9 +490,11 @@ pub fn load_indexed(
     // The item index is read while the tree is walked: both take a few
     // milliseconds of a rerun's few tens.
     let list_files = || {
+        // Siblings share the folder's path, so comparing whole paths
+        // orders them by name, without taking each name out of its path.
         let walker = WalkDir::new(&root)
             .follow_links(false)
-            .sort_by_file_name()
+            .sort_by(|a, b| a.path().as_os_str().cmp(b.path().as_os_str()))
             .into_iter()
             .filter_entry(|e| {
                 let name = e.file_name().to_string_lossy();
@@ -569,14 +585,34 @@ pub fn load_indexed(
             .as_ref()
             .filter(|_| !linked && !rel.starts_with("materials/"))
     };
+    // Each folder is opened once and its files stamped by name (see
+    // `index::Folder`).
+    let mut folders: Vec<crate::index::Folder> = Vec::new();
+    let mut folder_of_path: HashMap<&Path, usize> = HashMap::default();
+    let folder_of: Vec<Option<usize>> = steps
+        .iter()
+        .map(|step| match step {
+            Step::File { path, rel, linked } if indexed(rel, *linked).is_some() => {
+                let parent = path.parent()?;
+                Some(*folder_of_path.entry(parent).or_insert_with(|| {
+                    folders.push(crate::index::Folder::open(parent));
+                    folders.len() - 1
+                }))
+            }
+            _ => None,
+        })
+        .collect();
     let read: Vec<Option<Stamped>> = steps
         .par_iter()
-        .map(|step| match step {
+        .zip(folder_of)
+        .map(|(step, folder)| match step {
             Step::Problem(_) => None,
             Step::File { path, rel, linked } => {
                 let index = indexed(rel, *linked);
                 // Taken before reading: a write after it changes the stamp.
-                let stamp = index.and_then(|_| crate::index::stamp_of(path));
+                let stamp = folder
+                    .zip(path.file_name())
+                    .and_then(|(folder, name)| folders[folder].stamp(name));
                 if let (Some(index), Some(stamp)) = (index, &stamp) {
                     if let Some(reused) = index.reuse(rel, stamp) {
                         return Some((Some(*stamp), Ok(Read::Reused(Box::new(reused)))));
@@ -591,7 +627,7 @@ pub fn load_indexed(
             }
         })
         .collect();
-    let mut item_ids: HashMap<String, usize> = HashMap::new();
+    let mut item_ids: HashMap<String, usize> = HashMap::default();
     let mut seen = ItemStamps::default();
     for (step, read) in steps.into_iter().zip(read) {
         let (rel, stamp, read) = match (step, read) {

@@ -5,7 +5,7 @@
 //!
 //! Owns no state: a [`Plan`] is a value built from a project and a registry.
 
-use std::collections::{BTreeMap, BTreeSet, HashMap};
+use std::collections::{BTreeMap, BTreeSet};
 
 use packwright_api::{
     parse_scalar, CalcError, InputKind, InputSpec, Inputs, ModuleDeclaration, Need, Node,
@@ -16,6 +16,7 @@ use rayon::prelude::*;
 
 use crate::deferred::Deferred;
 use crate::diagnostic::{Diagnostic, Diagnostics};
+use crate::fast::HashMap;
 use crate::project::{did_you_mean, ItemFile, Project};
 use crate::registry::Registry;
 
@@ -604,7 +605,7 @@ fn check_links(
 /// Validates and links every item. Returns the plan when there is no
 /// problem at all, otherwise every problem found.
 pub fn plan(project: &Project, registry: &Registry) -> Result<Plan, Diagnostics> {
-    plan_reusing(project, registry, HashMap::new())
+    plan_reusing(project, registry, HashMap::default())
 }
 
 /// [`plan`], taking the resolved form of the items in `reused` (by file)
