@@ -20,7 +20,7 @@
 //! (CRC-32) and headed by the identity of the build that wrote it (an
 //! outcome's layout may differ in a rebuilt tool of the same version), and
 //! what fails either is ignored, which costs only time (see
-//! [`crate::framed`], whose journal lets a run append only its new
+//! `framed`, whose journal lets a run append only its new
 //! outcomes). Each entry holds the outputs alone beside the whole outcome,
 //! because the outputs of a linked item enter the digests of the items
 //! that link to it.

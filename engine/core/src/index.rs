@@ -13,7 +13,7 @@
 //! The file is headed by the identity of the running executable (its size
 //! and modification time), so a rebuilt tool, whose formatting may differ
 //! even at the same version number, never trusts an index it did not
-//! write. It is a journal ([`crate::framed`]): a run appends the entries
+//! write. It is a journal (`framed`): a run appends the entries
 //! that changed.
 //!
 //! State: `.packwright-cache/index.bin`. Losing it costs only time.
@@ -255,7 +255,7 @@ impl Index {
 
     /// The index in `cache_dir`, or an empty one when it is missing,
     /// unreadable or written by another build (its file is a journal
-    /// headed by the build's identity, see [`crate::framed`]).
+    /// headed by the build's identity, see `framed`).
     pub fn load(cache_dir: &Path) -> Index {
         let Some(journal) = crate::framed::Journal::read(&cache_dir.join(INDEX_FILE), INDEX_MAGIC)
         else {

@@ -25,7 +25,7 @@
 //!
 //! The file is checksummed; a damaged, foreign or truncated index is
 //! ignored, so losing it costs only time. It is a journal
-//! ([`crate::framed`]): a run appends the entries of the files it read.
+//! (`framed`): a run appends the entries of the files it read.
 //! State: `.packwright-cache/items.bin`, written after a successful run.
 
 use std::collections::BTreeMap;
@@ -95,7 +95,7 @@ pub struct Reused {
 #[derive(Default)]
 pub struct ItemIndex {
     /// Each file's (relative path's) stamp and payload, as a journal
-    /// (see [`crate::framed`]) whose key is the resolve key.
+    /// (see `framed`) whose key is the resolve key.
     journal: Option<framed::Journal>,
 }
 
@@ -176,9 +176,10 @@ pub struct Seen {
 }
 
 impl Seen {
-    /// Writes the index for the items of a successful run, unless it holds
-    /// every item it could record already. Errors are ignored: a lost
-    /// index costs only time.
+    /// Records the items of a successful run: the entries of the files read
+    /// anew are appended to the index (nothing is written when there are
+    /// none), or the index is written whole (see `framed::save`). Errors
+    /// are ignored: a lost index costs only time.
     pub fn save<'a>(
         &self,
         cache_dir: &Path,
