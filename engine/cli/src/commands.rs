@@ -196,41 +196,36 @@ fn run_and_maybe_package(dir: &Path, strict: bool, fresh: bool, package: bool, o
             .get(&run.item.module)
             .expect("registered")
             .declaration;
+        // Through the outcome's glance: an outcome taken from the cache is
+        // not decoded whole for one line of the table.
+        let outcome = &run.outcome;
         let key = decl
             .outputs
             .iter()
-            .find(|o| o.key && run.outcome.outputs.contains_key(&o.name))
-            .or_else(|| {
-                decl.outputs
-                    .iter()
-                    .find(|o| run.outcome.outputs.contains_key(&o.name))
-            });
+            .filter(|o| o.key)
+            .chain(&decl.outputs)
+            .find_map(|spec| Some((spec, outcome.output(&spec.name)?)));
         let key_text = key
-            .map(|spec| {
+            .map(|(spec, value)| {
                 format!(
                     "{} = {}",
                     spec.name,
-                    display::joined(display::output(
-                        &run.outcome.outputs[&spec.name],
-                        Some(spec),
-                        system
-                    ))
+                    display::joined(display::output(value, Some(spec), system))
                 )
             })
             .unwrap_or_default();
-        let fails: Vec<&str> = run
-            .outcome
-            .checks
+        let statuses = outcome.check_statuses();
+        let fails: Vec<&str> = statuses
             .iter()
-            .filter(|c| c.status == Status::Fail)
-            .map(|c| c.name.as_str())
+            .filter(|(_, status)| *status == Status::Fail)
+            .map(|(name, _)| *name)
             .collect();
-        let checks = if run.outcome.checks.is_empty() {
+        let checks = if statuses.is_empty() {
             "no checks".to_string()
         } else if fails.is_empty() {
-            format!("{} pass", run.outcome.checks.len())
+            format!("{} pass", statuses.len())
         } else {
-            format!("{} FAIL of {}", fails.len(), run.outcome.checks.len())
+            format!("{} FAIL of {}", fails.len(), statuses.len())
         };
         for f in &fails {
             failed.push(format!("{} {}", run.item.id, f));

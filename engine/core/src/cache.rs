@@ -21,9 +21,10 @@
 //! outcome's layout may differ in a rebuilt tool of the same version), and
 //! what fails either is ignored, which costs only time (see
 //! `framed`, whose journal lets a run append only its new
-//! outcomes). Each entry holds the outputs alone beside the whole outcome,
-//! because the outputs of a linked item enter the digests of the items
-//! that link to it.
+//! outcomes). Each entry holds the outcome's glance (outputs and check
+//! statuses, [`crate::run::Glance`]) beside the whole outcome, because the
+//! outputs of a linked item enter the digests of the items that link to
+//! it, and the results table shows every item's key output and checks.
 
 use std::fs;
 use std::path::{Path, PathBuf};
@@ -41,7 +42,7 @@ const OUTCOMES_FILE: &str = "outcomes.bin";
 
 /// First bytes of the outcomes file; a new layout gets a new tag, so an old
 /// file is ignored rather than misread.
-const OUTCOMES_MAGIC: &[u8; 16] = b"packwright-out-3";
+const OUTCOMES_MAGIC: &[u8; 16] = b"packwright-out-4";
 
 /// Names in the cache folder that [`Cache::save`] keeps; anything else is
 /// an older layout's leftover (the per-digest `.json` files) and goes.
@@ -62,7 +63,7 @@ pub struct Cache {
     stored: OnceLock<Stored>,
 }
 
-/// Where an entry's outputs and whole outcome lie in the file.
+/// Where an entry's glance and whole outcome lie in the file.
 type Ranges = (std::ops::Range<usize>, std::ops::Range<usize>);
 
 #[derive(Debug, Default)]
@@ -88,7 +89,7 @@ impl Stored {
 }
 
 /// The entries of an outcomes file: each digest's value is two parts, the
-/// outputs and the whole outcome. A value that does not split so is left
+/// glance and the whole outcome. A value that does not split so is left
 /// out (no hit).
 fn parse_entries(journal: &framed::Journal) -> HashMap<String, Ranges> {
     let bytes = &journal.bytes;
@@ -96,17 +97,17 @@ fn parse_entries(journal: &framed::Journal) -> HashMap<String, Ranges> {
         .entries()
         .filter_map(|(digest, value)| {
             let mut at = value.start;
-            let outputs = framed::read_part(bytes, &mut at)?;
+            let glance = framed::read_part(bytes, &mut at)?;
             let full = framed::read_part(bytes, &mut at)?;
-            (at == value.end).then(|| (digest.to_string(), (outputs, full)))
+            (at == value.end).then(|| (digest.to_string(), (glance, full)))
         })
         .collect()
 }
 
-/// An entry's value: the encoded outputs and the encoded outcome.
-fn entry_value(outputs: &[u8], full: &[u8]) -> Vec<u8> {
-    let mut value = Vec::with_capacity(outputs.len() + full.len() + 8);
-    for part in [outputs, full] {
+/// An entry's value: the encoded glance and the encoded outcome.
+fn entry_value(glance: &[u8], full: &[u8]) -> Vec<u8> {
+    let mut value = Vec::with_capacity(glance.len() + full.len() + 8);
+    for part in [glance, full] {
         value.extend_from_slice(&(part.len() as u32).to_le_bytes());
         value.extend_from_slice(part);
     }
@@ -115,9 +116,9 @@ fn entry_value(outputs: &[u8], full: &[u8]) -> Vec<u8> {
 
 /// An outcome's entry value, encoded now.
 fn encode_entry(run: &crate::run::ItemRun) -> Option<Vec<u8>> {
-    let outputs = postcard::to_allocvec(&run.outcome.outputs).ok()?;
+    let glance = crate::run::Glance::encode_of(&run.outcome).ok()?;
     let full = postcard::to_allocvec(&*run.outcome).ok()?;
-    Some(entry_value(&outputs, &full))
+    Some(entry_value(&glance, &full))
 }
 
 impl Cache {
@@ -171,8 +172,8 @@ impl Cache {
             let mut all = framed::Records::new();
             for (digest, run) in &wanted {
                 let value = match stored.entries.get(*digest) {
-                    Some((outputs, full)) => Some(entry_value(
-                        &stored.bytes[outputs.clone()],
+                    Some((glance, full)) => Some(entry_value(
+                        &stored.bytes[glance.clone()],
                         &stored.bytes[full.clone()],
                     )),
                     None => encode_entry(run),
@@ -220,10 +221,10 @@ impl Cache {
 impl OutcomeStore for Cache {
     fn get(&self, digest: &str) -> Option<SharedOutcome> {
         let stored = self.stored();
-        let (outputs, full) = stored.entries.get(digest)?;
+        let (glance, full) = stored.entries.get(digest)?;
         Some(SharedOutcome::encoded(
             stored.bytes.clone(),
-            outputs.clone(),
+            glance.clone(),
             full.clone(),
         ))
     }

@@ -73,42 +73,99 @@ pub use crate::deferred::Encoded;
 /// An item's outcome. One computed in this run is held as it is; one taken
 /// from the rerun cache is decoded when first looked at (see
 /// [`Deferred`]): a rerun looks at few of them (the sources of links and
-/// the items whose result files are written). The outputs are stored apart
-/// too, because a link source's outputs enter the digests of the items
-/// linking to it, and the rest (series, plots) is the bulk.
+/// the items whose result files are written). Its [`Glance`] is stored
+/// apart too, because a link source's outputs enter the digests of the
+/// items linking to it, the results table shows every item's key output
+/// and checks, and the rest (series, plots, explanations) is the bulk.
 #[derive(Clone)]
 pub struct SharedOutcome {
     full: Deferred<Outcome>,
-    /// The outputs alone, for an outcome taken from the cache.
-    outputs: Option<Deferred<BTreeMap<String, Measure>>>,
+    /// The glance alone, for an outcome taken from the cache.
+    glance: Option<Deferred<Glance>>,
+}
+
+/// The outputs of an outcome and the name and status of each of its
+/// checks: what is looked at of most outcomes.
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct Glance {
+    /// The outputs.
+    pub outputs: BTreeMap<String, Measure>,
+    /// Each check's name and status, in the outcome's order.
+    pub checks: Vec<(String, packwright_api::Status)>,
+}
+
+impl Glance {
+    /// The stored form of an outcome's glance, written without copying
+    /// the outcome (the same bytes as a [`Glance`]'s).
+    pub fn encode_of(outcome: &Outcome) -> Result<Vec<u8>, postcard::Error> {
+        #[derive(serde::Serialize)]
+        struct Borrowed<'a> {
+            outputs: &'a BTreeMap<String, Measure>,
+            checks: Vec<(&'a str, packwright_api::Status)>,
+        }
+        postcard::to_allocvec(&Borrowed {
+            outputs: &outcome.outputs,
+            checks: outcome
+                .checks
+                .iter()
+                .map(|c| (c.name.as_str(), c.status))
+                .collect(),
+        })
+    }
 }
 
 impl SharedOutcome {
-    /// An outcome taken from encoded bytes: `outputs` holds the outputs
-    /// alone and `full` the whole outcome, both in postcard's form.
-    pub fn encoded(bytes: Encoded, outputs: Range<usize>, full: Range<usize>) -> SharedOutcome {
+    /// An outcome taken from encoded bytes: `glance` holds its [`Glance`]
+    /// and `full` the whole outcome, both in postcard's form.
+    pub fn encoded(bytes: Encoded, glance: Range<usize>, full: Range<usize>) -> SharedOutcome {
         SharedOutcome {
             full: Deferred::in_bytes(bytes.clone(), full),
-            outputs: Some(Deferred::in_bytes(bytes, outputs)),
+            glance: Some(Deferred::in_bytes(bytes, glance)),
         }
+    }
+
+    /// The glance, unless the whole outcome is at hand.
+    fn glance(&self) -> Option<&Glance> {
+        self.glance
+            .as_ref()
+            .filter(|_| !self.full.is_decoded())
+            .map(|g| &**g)
     }
 
     /// One output, without decoding the rest of the outcome.
     pub fn output(&self, name: &str) -> Option<&Measure> {
-        match &self.outputs {
-            Some(outputs) if !self.full.is_decoded() => outputs.get(name),
-            _ => self.full.outputs.get(name),
+        match self.glance() {
+            Some(glance) => glance.outputs.get(name),
+            None => self.full.outputs.get(name),
+        }
+    }
+
+    /// Each check's name and status, without decoding the rest of the
+    /// outcome.
+    pub fn check_statuses(&self) -> Vec<(&str, packwright_api::Status)> {
+        match self.glance() {
+            Some(glance) => glance
+                .checks
+                .iter()
+                .map(|(n, s)| (n.as_str(), *s))
+                .collect(),
+            None => self
+                .full
+                .checks
+                .iter()
+                .map(|c| (c.name.as_str(), c.status))
+                .collect(),
         }
     }
 }
 
-crate::deferred::stored_as_postcard!(Outcome, BTreeMap<String, Measure>);
+crate::deferred::stored_as_postcard!(Outcome, Glance);
 
 impl From<Outcome> for SharedOutcome {
     fn from(outcome: Outcome) -> SharedOutcome {
         SharedOutcome {
             full: Deferred::new(outcome),
-            outputs: None,
+            glance: None,
         }
     }
 }

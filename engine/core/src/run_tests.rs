@@ -258,3 +258,30 @@ fn a_sound_run_fills_the_link() {
     assert!(outcome.failures.is_empty() && outcome.skipped.is_empty());
     assert_eq!(outcome.items.len(), 2);
 }
+
+/// An outcome taken from stored bytes answers an output and its checks'
+/// statuses from its glance, without decoding the whole outcome, and the
+/// answers are the outcome's own.
+#[test]
+fn a_stored_outcome_answers_outputs_and_checks_from_its_glance() {
+    let outcome = Fake(Fault::None).compute(&inputs(2.0)).expect("computes");
+    let glance = super::Glance::encode_of(&outcome).expect("encodes");
+    let full = postcard::to_allocvec(&outcome).expect("encodes");
+    let bytes: super::Encoded = [glance.as_slice(), full.as_slice()].concat().into();
+    let whole = glance.len()..bytes.len();
+    let stored = super::SharedOutcome::encoded(bytes, 0..glance.len(), whole);
+    assert_eq!(stored.output("force"), outcome.outputs.get("force"));
+    assert_eq!(
+        stored.check_statuses(),
+        [("force_small", packwright_api::Status::Pass)]
+    );
+    assert!(!stored.full.is_decoded(), "the whole outcome was decoded");
+    assert_eq!(
+        stored.series, outcome.series,
+        "the whole outcome reads back"
+    );
+    assert_eq!(
+        stored.check_statuses(),
+        [("force_small", outcome.checks[0].status)]
+    );
+}
