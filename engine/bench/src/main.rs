@@ -129,11 +129,22 @@ fn edit_one_input(project: &Path) {
 /// How many times each run is measured.
 const REPEATS: usize = 5;
 
-/// The median time of some runs (time, items computed).
-fn median(runs: &[(f64, usize)]) -> f64 {
+/// Runs the project at `dir` in process: the time until the run returns
+/// (freeing what it returns is its caller's; the `packwright` binary
+/// leaves that to the end of the process) and how many items it computed.
+fn timed_run(dir: &Path, registry: &packwright_core::Registry, what: &str) -> (f64, usize) {
+    let start = Instant::now();
+    let ran = packwright_core::run_project(dir, registry, RunOptions::default())
+        .unwrap_or_else(|e| panic!("{what}: {e}"));
+    (seconds(start), ran.1.computed)
+}
+
+/// The fastest, median and slowest time of some runs (time, items
+/// computed).
+fn spread(runs: &[(f64, usize)]) -> (f64, f64, f64) {
     let mut times: Vec<f64> = runs.iter().map(|(t, _)| *t).collect();
     times.sort_by(f64::total_cmp);
-    times[times.len() / 2]
+    (times[0], times[times.len() / 2], times[times.len() - 1])
 }
 
 fn seconds(start: Instant) -> f64 {
@@ -197,24 +208,17 @@ fn main() {
             .and_then(|a| a.parse().ok())
             .unwrap_or(100);
         let dir = Path::new(&dir);
-        packwright_core::run_project(dir, &registry, RunOptions::default()).expect("first run");
-        let mut times: Vec<f64> = (0..n)
+        timed_run(dir, &registry, "first run");
+        let runs: Vec<(f64, usize)> = (0..n.max(1))
             .map(|_| {
                 edit_one_input(dir);
-                let start = Instant::now();
-                let ran = packwright_core::run_project(dir, &registry, RunOptions::default())
-                    .expect("rerun");
-                let t = seconds(start);
-                drop(ran);
-                t
+                timed_run(dir, &registry, "rerun")
             })
             .collect();
-        times.sort_by(f64::total_cmp);
+        let (fastest, median, slowest) = spread(&runs);
         println!(
-            "{n} one-change reruns: fastest {:.4} s, median {:.4} s, slowest {:.4} s",
-            times[0],
-            times[n / 2],
-            times[n - 1]
+            "{} one-change reruns: fastest {fastest:.4} s, median {median:.4} s, slowest {slowest:.4} s",
+            runs.len()
         );
         return;
     }
@@ -234,45 +238,38 @@ fn main() {
     println!(
         "run benchmark: {n} items (copies of the demo items, every built-in module, with links)"
     );
-    let run = |dir: &Path, what: &str| {
-        // Until the run returns: freeing what it returns is its caller's
-        // (the `packwright` binary leaves that to the end of the process).
-        let start = Instant::now();
-        let ran = packwright_core::run_project(dir, &registry, RunOptions::default())
-            .unwrap_or_else(|e| panic!("{what}: {e}"));
-        let t = seconds(start);
-        (t, ran.1.computed)
-    };
-    let cold: Vec<(f64, usize)> = projects.iter().map(|p| run(p.path(), "cold run")).collect();
+    let cold: Vec<(f64, usize)> = projects
+        .iter()
+        .map(|p| timed_run(p.path(), &registry, "cold run"))
+        .collect();
     let dir = projects[0].path();
-    let warm: Vec<(f64, usize)> = (0..REPEATS).map(|_| run(dir, "warm run")).collect();
+    let warm: Vec<(f64, usize)> = (0..REPEATS)
+        .map(|_| timed_run(dir, &registry, "warm run"))
+        .collect();
     let one: Vec<(f64, usize)> = (0..REPEATS)
         .map(|_| {
             edit_one_input(dir);
-            run(dir, "one-change run")
+            timed_run(dir, &registry, "one-change run")
         })
         .collect();
     let run_peak = peak_mib();
-    let t_cold = median(&cold);
-    let line = |name: &str, runs: &[(f64, usize)]| {
-        let t = median(runs);
-        let (fastest, slowest) = runs.iter().fold((f64::MAX, 0.0f64), |(lo, hi), (t, _)| {
-            (lo.min(*t), hi.max(*t))
-        });
-        let ratio = if name == "cold run" {
-            String::from("           ")
-        } else {
+    let (_, t_cold, _) = spread(&cold);
+    let line = |name: &str, runs: &[(f64, usize)], ratio: bool| {
+        let (fastest, t, slowest) = spread(runs);
+        let ratio = if ratio {
             format!("ratio {:.3}", t / t_cold)
+        } else {
+            " ".repeat(11)
         };
         println!(
-            "  {name:13} {t:8.3} s   {ratio}  ({:.3}-{:.3} s; {} computed)",
-            fastest, slowest, runs[0].1
+            "  {name:13} {t:8.3} s   {ratio}  ({fastest:.3}-{slowest:.3} s; {} computed)",
+            runs[0].1
         );
     };
     println!("  median of {REPEATS} runs each:");
-    line("cold run", &cold);
-    line("warm run", &warm);
-    line("one change", &one);
+    line("cold run", &cold, false);
+    line("warm run", &warm, true);
+    line("one change", &one, true);
     println!("  peak memory after the runs: {run_peak:.0} MiB");
     // `packwright-bench N 0` measures the runs only.
     if build_items == 0 {

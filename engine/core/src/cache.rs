@@ -30,9 +30,8 @@ use std::fs;
 use std::path::{Path, PathBuf};
 use std::sync::OnceLock;
 
-use crate::fast::HashMap;
 use crate::framed;
-use crate::run::{Encoded, OutcomeStore, RunOutcome, SharedOutcome};
+use crate::run::{OutcomeStore, RunOutcome, SharedOutcome};
 
 /// The cache folder's name inside a project.
 pub const CACHE_FOLDER: &str = ".packwright-cache";
@@ -58,50 +57,34 @@ const KEPT: [&str; 5] = [
 #[derive(Debug)]
 pub struct Cache {
     dir: PathBuf,
-    /// The outcomes file's bytes and where each digest's entry lies in
-    /// them; read on first use, so a `--fresh` run never reads it.
+    /// The outcomes file, read on first use, so a `--fresh` run never
+    /// reads it.
     stored: OnceLock<Stored>,
 }
 
 /// Where an entry's glance and whole outcome lie in the file.
 type Ranges = (std::ops::Range<usize>, std::ops::Range<usize>);
 
+/// The outcomes file as read (empty when missing, damaged or another
+/// build's).
 #[derive(Debug, Default)]
-struct Stored {
-    bytes: Encoded,
-    entries: HashMap<String, Ranges>,
-    /// The file as read, for appending to it.
-    shape: Option<framed::Shape>,
-}
+struct Stored(Option<framed::Journal>);
 
 impl Stored {
     fn read(path: &Path) -> Stored {
-        let Some(journal) = framed::Journal::read(path, OUTCOMES_MAGIC) else {
-            return Stored::default();
-        };
-        let entries = parse_entries(&journal);
-        Stored {
-            bytes: journal.bytes.clone(),
-            entries,
-            shape: Some(journal.shape().clone()),
-        }
+        Stored(framed::Journal::read(path, OUTCOMES_MAGIC))
     }
-}
 
-/// The entries of an outcomes file: each digest's value is two parts, the
-/// glance and the whole outcome. A value that does not split so is left
-/// out (no hit).
-fn parse_entries(journal: &framed::Journal) -> HashMap<String, Ranges> {
-    let bytes = &journal.bytes;
-    journal
-        .entries()
-        .filter_map(|(digest, value)| {
-            let mut at = value.start;
-            let glance = framed::read_part(bytes, &mut at)?;
-            let full = framed::read_part(bytes, &mut at)?;
-            (at == value.end).then(|| (digest.to_string(), (glance, full)))
-        })
-        .collect()
+    /// Where the glance and the whole outcome of `digest` lie: its value
+    /// is those two parts; a value that does not split so is no hit.
+    fn entry(&self, digest: &str) -> Option<Ranges> {
+        let journal = self.0.as_ref()?;
+        let value = journal.get(digest)?;
+        let mut at = value.start;
+        let glance = framed::read_part(&journal.bytes, &mut at)?;
+        let full = framed::read_part(&journal.bytes, &mut at)?;
+        (at == value.end).then_some((glance, full))
+    }
 }
 
 /// An entry's value: the encoded glance and the encoded outcome.
@@ -160,7 +143,7 @@ impl Cache {
         wanted.dedup_by(|a, b| a.0 == b.0);
         let mut changes = framed::Records::new();
         for (digest, run) in &wanted {
-            if !stored.entries.contains_key(*digest) {
+            if stored.entry(digest).is_none() {
                 let Some(value) = encode_entry(run) else {
                     return;
                 };
@@ -171,12 +154,11 @@ impl Cache {
         let whole = || {
             let mut all = framed::Records::new();
             for (digest, run) in &wanted {
-                let value = match stored.entries.get(*digest) {
-                    Some((glance, full)) => Some(entry_value(
-                        &stored.bytes[glance.clone()],
-                        &stored.bytes[full.clone()],
-                    )),
-                    None => encode_entry(run),
+                let value = match (stored.entry(digest), &stored.0) {
+                    (Some((glance, full)), Some(journal)) => {
+                        Some(entry_value(&journal.bytes[glance], &journal.bytes[full]))
+                    }
+                    _ => encode_entry(run),
                 };
                 if let Some(value) = value {
                     all.set(digest, &value);
@@ -185,7 +167,7 @@ impl Cache {
             all
         };
         let path = self.dir.join(OUTCOMES_FILE);
-        let old = stored.shape.as_ref();
+        let old = stored.0.as_ref().map(framed::Journal::shape);
         let _ = framed::save(
             &path,
             OUTCOMES_MAGIC,
@@ -221,12 +203,9 @@ impl Cache {
 impl OutcomeStore for Cache {
     fn get(&self, digest: &str) -> Option<SharedOutcome> {
         let stored = self.stored();
-        let (glance, full) = stored.entries.get(digest)?;
-        Some(SharedOutcome::encoded(
-            stored.bytes.clone(),
-            glance.clone(),
-            full.clone(),
-        ))
+        let (glance, full) = stored.entry(digest)?;
+        let bytes = stored.0.as_ref()?.bytes.clone();
+        Some(SharedOutcome::encoded(bytes, glance, full))
     }
 }
 
@@ -247,9 +226,10 @@ mod tests {
         let none = framed::Records::new();
         framed::save(&path, OUTCOMES_MAGIC, &[], None, 2, none, whole).expect("saves");
         let stored = Stored::read(&path);
-        assert_eq!(stored.entries.len(), 1);
-        let (outputs, full) = &stored.entries["sha256:ab"];
-        assert_eq!(&stored.bytes[outputs.clone()], b"o");
-        assert_eq!(&stored.bytes[full.clone()], b"xyz");
+        assert!(stored.entry("sha256:cd").is_none());
+        let (glance, full) = stored.entry("sha256:ab").expect("a hit");
+        let bytes = &stored.0.as_ref().expect("read").bytes;
+        assert_eq!(&bytes[glance], b"o");
+        assert_eq!(&bytes[full], b"xyz");
     }
 }

@@ -168,9 +168,13 @@ pub struct Entry {
     pub row: Option<String>,
 }
 
-/// An [`Entry`] of a result file, borrowing what the run holds.
+/// An [`Entry`] of a result file, borrowing what the run holds. Stored
+/// without its name (the record's name), so it reads back as an [`Entry`]:
+/// the fields are [`Entry`]'s, in its order.
+#[derive(Serialize)]
 pub struct EntryRef<'a> {
     /// The file's name.
+    #[serde(skip)]
     pub name: &'a str,
     /// As [`Entry::key`].
     pub key: Option<Hash>,
@@ -182,16 +186,6 @@ pub struct EntryRef<'a> {
     pub row: Option<&'a str>,
 }
 
-/// The stored form of an entry: [`Entry`]'s fields in its order, so that it
-/// reads back as one.
-#[derive(Serialize)]
-struct StoredEntry<'a> {
-    key: Option<Hash>,
-    content: Hash,
-    stamp: Stamp,
-    row: Option<&'a str>,
-}
-
 impl EntryRef<'_> {
     /// Whether this is the entry `old`.
     fn is(&self, old: &Entry) -> bool {
@@ -199,15 +193,6 @@ impl EntryRef<'_> {
             && self.content == old.content
             && self.stamp == old.stamp
             && self.row == old.row.as_deref()
-    }
-
-    fn stored(&self) -> StoredEntry<'_> {
-        StoredEntry {
-            key: self.key,
-            content: self.content,
-            stamp: self.stamp,
-            row: self.row,
-        }
     }
 }
 
@@ -278,7 +263,7 @@ impl Index {
     /// only time), as the entries that differ from `before` (the index as
     /// loaded) appended to its file, or whole.
     pub fn save(cache_dir: &Path, before: &Index, entries: &[EntryRef<'_>]) {
-        let encoded = |entry: &EntryRef<'_>| postcard::to_allocvec(&entry.stored()).ok();
+        let encoded = |entry: &EntryRef<'_>| postcard::to_allocvec(entry).ok();
         let mut changes = crate::framed::Records::new();
         let mut added = 0;
         for entry in entries {
@@ -395,4 +380,30 @@ pub fn summary_key(outcome: &RunOutcome, key_outputs: &BTreeMap<String, Vec<Stri
         field(&run.inputs_digest);
     }
     h.finalize().into()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// An entry written from borrowed parts reads back as the [`Entry`] it
+    /// stands for, and is found equal to it.
+    #[test]
+    fn a_borrowed_entry_reads_back_as_an_entry() {
+        let dir = tempfile::tempdir().expect("temp dir");
+        let path = dir.path().join("a.yaml");
+        std::fs::write(&path, "x").expect("write");
+        let stamp = stamp_of(&path).expect("a stamp");
+        let borrowed = EntryRef {
+            name: "a.yaml",
+            key: Some([1; 32]),
+            content: [2; 32],
+            stamp,
+            row: Some("a,b\n"),
+        };
+        let bytes = postcard::to_allocvec(&borrowed).expect("encodes");
+        let entry: Entry = postcard::from_bytes(&bytes).expect("decodes");
+        assert!(borrowed.is(&entry));
+        assert_eq!(entry.row.as_deref(), Some("a,b\n"));
+    }
 }

@@ -195,8 +195,9 @@ impl Seen {
         // under the stamp recorded); entries of files gone or changed stay
         // until the file is written whole: their stamps no longer match
         // anything.
+        let as_recorded = |item: &ItemFile| same_key && self.reused.contains(&item.file);
         let kept = |item: &ItemFile| {
-            (same_key && self.reused.contains(&item.file))
+            as_recorded(item)
                 .then(|| self.index.entry(&item.file))
                 .flatten()
         };
@@ -212,7 +213,7 @@ impl Seen {
         };
         let mut changes = framed::Records::new();
         for item in &recorded {
-            if !(same_key && self.reused.contains(&item.file)) {
+            if !as_recorded(item) {
                 let Some(entry) = fresh(item) else { return };
                 changes.set(&item.file, &entry);
             }

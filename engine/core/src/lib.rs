@@ -243,6 +243,11 @@ pub struct Computed {
     lock: Option<std::fs::File>,
 }
 
+/// The error of a failed write of `results/` or its lock.
+fn cannot_write_results(e: std::io::Error) -> EngineError {
+    EngineError::Io(format!("cannot write results/: {e}"))
+}
+
 /// Takes the lock that keeps a second writer out of `results/` and the
 /// cache (released when the file is closed), waiting for another run to
 /// finish.
@@ -267,14 +272,13 @@ impl Computed {
     pub fn write_results(&self) -> Result<(), EngineError> {
         let results = self.project.root.join("results");
         let cache_dir = self.store.dir();
-        let io = |e: std::io::Error| EngineError::Io(format!("cannot write results/: {e}"));
         // Two runs at once would both rebuild the spare folder. A lock taken
         // only now must see that no other run wrote `results/` since this
         // one looked.
         let _lock = match &self.lock {
             Some(_) => None,
             None => {
-                let lock = lock_writers(cache_dir).map_err(io)?;
+                let lock = lock_writers(cache_dir).map_err(cannot_write_results)?;
                 let folder = index::Folder::open(&results);
                 let moved = self
                     .files
@@ -306,7 +310,6 @@ impl Computed {
     /// results index.
     fn update_results(&self, results: &Path) -> Result<(), EngineError> {
         let cache_dir = self.store.dir();
-        let io = |e: std::io::Error| EngineError::Io(format!("cannot write results/: {e}"));
         let all_there = self.files.iter().all(|f| f.on_disk)
             && std::fs::read_dir(results).is_ok_and(|d| d.count() == self.files.len());
         // Which files have a new stamp: none when nothing was written.
@@ -330,7 +333,7 @@ impl Computed {
                     // The spare folder may sit on another file system (a
                     // linked cache folder): write the folder whole instead.
                     let _ = std::fs::remove_dir_all(&spare);
-                    let whole = self.whole_files(results).map_err(io)?;
+                    let whole = self.whole_files(results).map_err(cannot_write_results)?;
                     fsio::replace_dir(results, &whole).map_err(|e2| {
                         EngineError::Io(format!("cannot write results/: {e2} (and {e})"))
                     })?;
