@@ -45,6 +45,9 @@ struct Inner<T> {
     /// The stored form (bytes and where in them), for a value read from
     /// a cache file.
     stored: Option<(Encoded, Range<usize>)>,
+    /// The file its spans were stored without naming
+    /// ([`packwright_api::with_span_file`]), restored when it is decoded.
+    span_file: Option<Arc<str>>,
 }
 
 impl<T> Deferred<T> {
@@ -53,6 +56,7 @@ impl<T> Deferred<T> {
         Deferred(Arc::new(Inner {
             value: OnceLock::from(value),
             stored: None,
+            span_file: None,
         }))
     }
 
@@ -64,20 +68,25 @@ impl<T> Deferred<T> {
 }
 
 impl<T: StoredForm> Deferred<T> {
-    /// A value stored in `bytes[range]`, decoded when first looked at.
+    /// A value stored in `bytes[range]`, decoded when first looked at,
+    /// with its spans in the file that [`packwright_api::with_span_file`]
+    /// sets now.
     pub(crate) fn in_bytes(bytes: Encoded, range: Range<usize>) -> Deferred<T> {
         Deferred(Arc::new(Inner {
             value: OnceLock::new(),
             stored: Some((bytes, range)),
+            span_file: packwright_api::span_file(),
         }))
     }
 
-    /// The stored form: the bytes read, or the value encoded.
+    /// The stored form: the bytes read, when they were stored leaving out
+    /// the same file's name as is left out now, or else the value encoded.
     fn stored_form(&self) -> std::borrow::Cow<'_, [u8]> {
-        match (&self.0.stored, self.0.value.get()) {
-            (Some((bytes, range)), _) => std::borrow::Cow::Borrowed(&bytes[range.clone()]),
-            (None, Some(value)) => std::borrow::Cow::Owned(value.encode()),
-            (None, None) => unreachable!("a deferred value has its value or its bytes"),
+        match &self.0.stored {
+            Some((bytes, range)) if self.0.span_file == packwright_api::span_file() => {
+                std::borrow::Cow::Borrowed(&bytes[range.clone()])
+            }
+            _ => std::borrow::Cow::Owned((**self).encode()),
         }
     }
 }
@@ -108,7 +117,8 @@ impl<T: StoredForm> std::ops::Deref for Deferred<T> {
             // cache files are checksummed and headed by the build's identity
             // (see `framed`). Going on with an empty value would change a
             // result.
-            T::decode(bytes).unwrap_or_else(|e| {
+            let span_file = self.0.span_file.clone();
+            packwright_api::with_span_file(span_file, || T::decode(bytes)).unwrap_or_else(|e| {
                 panic!(
                     "the rerun cache holds an entry this build cannot read ({e}); run with --fresh"
                 )

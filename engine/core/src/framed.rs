@@ -84,10 +84,24 @@ fn open_head(bytes: &[u8], tag: &[u8; 16]) -> Option<(usize, Range<usize>)> {
 pub(crate) struct Shape {
     /// The file's key.
     key: Vec<u8>,
-    /// Records in the file, stale ones included.
-    records: usize,
+    /// The file's length up to its last whole batch.
+    bytes: usize,
+    /// The length of its live records (those not overridden or removed
+    /// by a later one), as stored.
+    live: usize,
+    /// How many names it holds.
+    names: usize,
     /// Whether every batch was whole (no append was cut short).
     clean: bool,
+}
+
+/// How many bytes of stale records a file may hold beyond an eighth of
+/// its live ones: a small file is not written whole for every change.
+const STALE_SLACK: usize = 4096;
+
+/// The stored length of a record.
+fn record_len(name: &str, value: &Range<usize>) -> usize {
+    8 + name.len() + value.len()
 }
 
 /// A file as read: the latest value of every name.
@@ -108,8 +122,8 @@ impl Journal {
     /// A file's bytes read as a journal (see the module comment).
     pub(crate) fn parse(bytes: crate::deferred::Encoded, tag: &[u8; 16]) -> Option<Journal> {
         let (mut at, key) = open_head(&bytes, tag)?;
-        let mut latest = crate::fast::HashMap::default();
-        let mut records = 0;
+        let mut latest: crate::fast::HashMap<String, Range<usize>> = Default::default();
+        let mut live = 0;
         let clean = loop {
             if at == bytes.len() {
                 break true;
@@ -127,23 +141,28 @@ impl Journal {
                 let Ok(name) = std::str::from_utf8(&bytes[name]) else {
                     break;
                 };
-                records += 1;
-                if value.is_empty() {
-                    latest.remove(name);
+                let before = if value.is_empty() {
+                    latest.remove(name)
                 } else {
-                    latest.insert(name.to_string(), value);
+                    live += record_len(name, &value);
+                    latest.insert(name.to_string(), value)
+                };
+                if let Some(before) = before {
+                    live -= record_len(name, &before);
                 }
             }
         };
         let key = bytes[key].to_vec();
         Some(Journal {
-            bytes,
-            latest,
             shape: Shape {
                 key,
-                records,
+                bytes: at,
+                live,
+                names: latest.len(),
                 clean,
             },
+            bytes,
+            latest,
         })
     }
 
@@ -239,33 +258,40 @@ impl Records {
     }
 }
 
-/// Saves a file of `live` names under `key`: `changes` appended to the file
-/// as it was read (`old`), or, when that cannot be done or the file would
-/// then hold more stale records than live ones, the file written whole
-/// from the records `whole` gives. Errors are returned for the caller to
-/// ignore: a cache file lost costs only time.
+/// Saves a file of `wanted` names under `key`: `changes` appended to the
+/// file as it was read (`old`), or the file written whole from the records
+/// `whole` gives when that cannot be done, or when the file would then
+/// hold more stale bytes than an eighth of its live ones (and a few
+/// kilobytes), or it holds an eighth more names than are wanted (names no
+/// longer used, which the whole file forgets). A reader reads the stale
+/// records too, so they are kept few: a one-item change appends a record
+/// of its item every run, and a file allowed to grow to twice its live
+/// size was read at one and a half times it on average. Errors are
+/// returned for the caller to ignore: a cache file lost costs only time.
 pub(crate) fn save(
     path: &Path,
     tag: &[u8; 16],
     key: &[u8],
     old: Option<&Shape>,
-    live: usize,
+    wanted: usize,
     changes: Records,
     whole: impl FnOnce() -> Records,
 ) -> io::Result<()> {
     let Some(head) = head(tag, key) else {
         return Ok(());
     };
+    if changes.is_empty() && old.is_some_and(|old| old.clean && old.key == key) {
+        return Ok(());
+    }
+    let batch = changes.batch();
     let appendable = old.is_some_and(|old| {
-        old.clean && old.key == key && old.records + changes.count <= 2 * live + 64
+        old.clean
+            && old.key == key
+            && old.bytes + batch.len() <= old.live + old.live / 8 + STALE_SLACK
+            && old.names <= wanted + wanted / 8 + 16
     });
-    if appendable {
-        if changes.is_empty() {
-            return Ok(());
-        }
-        if append(path, &head, &changes.batch())? {
-            return Ok(());
-        }
+    if appendable && append(path, &head, &batch)? {
+        return Ok(());
     }
     let mut out = head;
     let all = whole();
@@ -372,20 +398,60 @@ mod tests {
     }
 
     #[test]
+    fn a_file_holding_many_names_no_longer_wanted_is_written_whole() {
+        let dir = tempfile::tempdir().expect("temp dir");
+        let path = dir.path().join("f.bin");
+        save(&path, TAG, b"k", None, 1, Records::new(), || {
+            records(&[("n0", b"v")])
+        })
+        .expect("saves");
+        // Each save wants one name, a new one: the old ones are forgotten
+        // once they outnumber the slack.
+        for n in 1..100u32 {
+            let read = Journal::read(&path, TAG).expect("reads");
+            let name = format!("n{n}");
+            let changes = records(&[(name.as_str(), b"v")]);
+            let whole = || records(&[(name.as_str(), b"v")]);
+            save(&path, TAG, b"k", Some(read.shape()), 1, changes, whole).expect("saves");
+            let read = Journal::read(&path, TAG).expect("reads");
+            assert!(read.shape().names <= 1 + 16 + 1, "{}", read.shape().names);
+            assert!(read.get(&name).is_some());
+        }
+    }
+
+    #[test]
     fn a_file_of_mostly_stale_records_is_written_whole() {
         let dir = tempfile::tempdir().expect("temp dir");
         let path = dir.path().join("f.bin");
-        let one = || records(&[("a", b"0")]);
-        save(&path, TAG, b"k", None, 1, Records::new(), one).expect("saves");
+        // Forty live records of 1 kB, and one of them changed 200 times.
+        let value = |n: u32| format!("{n:01000}");
+        let names: Vec<String> = (0..40).map(|i| format!("item-{i}")).collect();
+        let all = |changed: u32| {
+            let mut r = Records::new();
+            for (i, name) in names.iter().enumerate() {
+                let n = if i == 0 { changed } else { 0 };
+                r.set(name, value(n).as_bytes());
+            }
+            r
+        };
+        save(&path, TAG, b"k", None, 40, Records::new(), || all(0)).expect("saves");
+        let mut largest = 0;
         for n in 1..200u32 {
             let read = Journal::read(&path, TAG).expect("reads");
-            let value = n.to_string();
-            let changes = records(&[("a", value.as_bytes())]);
-            let whole = || records(&[("a", value.as_bytes())]);
-            save(&path, TAG, b"k", Some(read.shape()), 1, changes, whole).expect("saves");
+            let changes = records(&[("item-0", value(n).as_bytes())]);
+            save(&path, TAG, b"k", Some(read.shape()), 40, changes, || all(n)).expect("saves");
+            largest = largest.max(std::fs::metadata(&path).expect("stat").len() as usize);
         }
         let read = Journal::read(&path, TAG).expect("reads");
-        assert_eq!(names(&read), [("a".into(), b"199".to_vec())]);
-        assert!(read.shape().records <= 2 + 64, "{}", read.shape().records);
+        assert_eq!(
+            read.get("item-0").map(|r| read.bytes[r].to_vec()),
+            Some(value(199).into_bytes())
+        );
+        let live = read.shape().live;
+        assert!(live > 40_000, "{live}");
+        assert!(
+            largest <= live + live / 8 + STALE_SLACK + 2048,
+            "{largest} for {live}"
+        );
     }
 }

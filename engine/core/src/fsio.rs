@@ -174,7 +174,10 @@ const SYNC_EACH_UP_TO: usize = 16;
 /// one-file change. Nothing in the spare is trusted but its inode numbers.
 ///
 /// Every [`Update::Keep`] must name a file that `target` holds with the new
-/// content. The caller keeps other writers out (the cache's lock).
+/// content. The caller keeps other writers out (the cache's lock). A
+/// caller that stamped `target`'s files since it took the lock passes the
+/// inode of each of `files` there (`None` for one it does not hold), and
+/// `target` is not listed again.
 ///
 /// Returns, for each of `files`, whether it was written or linked anew:
 /// the others are the inodes `target` held before, untouched (their change
@@ -183,6 +186,7 @@ pub fn update_dir(
     target: &Path,
     spare: &Path,
     files: &[(String, Update<'_>)],
+    in_target: Option<Vec<Option<u64>>>,
 ) -> io::Result<Vec<bool>> {
     clean_leftovers(target);
     fs::create_dir_all(spare)?;
@@ -193,17 +197,23 @@ pub fn update_dir(
         .collect();
     // The inode each of `files` has in the spare and in the target.
     let mut in_spare: Vec<Option<u64>> = vec![None; files.len()];
-    let mut in_target: Vec<Option<u64>> = vec![None; files.len()];
     let mut stale = Vec::new();
     each_entry(spare, |name, ino| match position.get(name) {
         Some(&i) => in_spare[i] = Some(ino),
         None => stale.push(std::ffi::OsStr::from_bytes(name).to_owned()),
     })?;
-    each_entry(target, |name, ino| {
-        if let Some(&i) = position.get(name) {
-            in_target[i] = Some(ino);
+    let in_target = match in_target.filter(|known| known.len() == files.len()) {
+        Some(known) => known,
+        None => {
+            let mut listed: Vec<Option<u64>> = vec![None; files.len()];
+            each_entry(target, |name, ino| {
+                if let Some(&i) = position.get(name) {
+                    listed[i] = Some(ino);
+                }
+            })?;
+            listed
         }
-    })?;
+    };
     for name in stale {
         remove_any(&spare.join(name))?;
     }
@@ -410,7 +420,10 @@ mod tests {
             .iter()
             .map(|n| (n.to_string(), Update::Write(b"1")))
             .collect();
-        assert_eq!(update_dir(&target, &spare, &first).unwrap(), [true; 3]);
+        assert_eq!(
+            update_dir(&target, &spare, &first, None).unwrap(),
+            [true; 3]
+        );
         let before = crate::index::stamp_of(&target.join("a.yaml"));
         let second = vec![
             ("a.yaml".to_string(), Update::Keep),
@@ -418,7 +431,7 @@ mod tests {
             ("d.yaml".to_string(), Update::Write(b"4")),
         ];
         assert_eq!(
-            update_dir(&target, &spare, &second).unwrap(),
+            update_dir(&target, &spare, &second, None).unwrap(),
             [false, true, true]
         );
         assert_eq!(crate::index::stamp_of(&target.join("a.yaml")), before);
@@ -439,7 +452,7 @@ mod tests {
             ("d.yaml".to_string(), Update::Keep),
         ];
         assert_eq!(
-            update_dir(&target, &spare, &third).unwrap(),
+            update_dir(&target, &spare, &third, None).unwrap(),
             [false, true, true]
         );
         assert_eq!(fs::read(target.join("d.yaml")).unwrap(), b"4");
@@ -455,8 +468,14 @@ mod tests {
                 ("b.yaml".to_string(), Update::Write(content)),
                 ("d.yaml".to_string(), Update::Keep),
             ];
+            // Told the target's inodes (as a run that stamped them is),
+            // the update does what it does after listing the folder.
+            let known = update
+                .iter()
+                .map(|(name, _)| fs::metadata(target.join(name)).ok().map(|m| m.ino()))
+                .collect();
             assert_eq!(
-                update_dir(&target, &spare, &update).unwrap(),
+                update_dir(&target, &spare, &update, Some(known)).unwrap(),
                 [false, true, false]
             );
             assert_eq!(fs::read(target.join("b.yaml")).unwrap(), content);

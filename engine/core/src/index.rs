@@ -65,6 +65,11 @@ impl Stamp {
     pub fn ctime(&self) -> (i64, i64) {
         self.ctime
     }
+
+    /// The inode number.
+    pub fn ino(&self) -> u64 {
+        self.ino
+    }
 }
 
 /// The stamp of the file at `path` (not following a final link), or `None`

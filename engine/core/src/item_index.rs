@@ -21,7 +21,9 @@
 //! item without links depends on nothing else, so its digests are kept
 //! with its resolved form (`resolve::OwnDigests`). The inputs as written
 //! and the resolved inputs are kept as bytes until looked at
-//! ([`crate::deferred`]).
+//! ([`crate::deferred`]). An entry's spans in its own file are stored
+//! without the file's name ([`packwright_api::with_span_file`]); the
+//! names were nearly half the index.
 //!
 //! The file is checksummed; a damaged, foreign or truncated index is
 //! ignored, so losing it costs only time. It is a journal
@@ -45,7 +47,7 @@ use crate::resolve::PlannedItem;
 pub const ITEMS_FILE: &str = "items.bin";
 
 /// First bytes of the file; a new layout gets a new tag.
-const MAGIC: &[u8; 16] = b"packwright-itm-3";
+const MAGIC: &[u8; 16] = b"packwright-itm-4";
 
 /// How long before the stat a file's last change must lie for its stamp to
 /// vouch for what is then read. Linux stamps files from a clock that moves
@@ -118,18 +120,20 @@ impl ItemIndex {
 
     /// The recorded item of file `rel`, when `stamp` (taken now) is the one
     /// it was recorded under.
-    pub fn reuse(&self, rel: &str, stamp: &Stamp) -> Option<Reused> {
+    pub fn reuse(&self, rel: &Arc<str>, stamp: &Stamp) -> Option<Reused> {
         let (recorded, stored) = self.raw(rel)?;
         if recorded != *stamp {
             return None;
         }
         let journal = self.journal.as_ref()?;
-        let stored: Stored =
+        // An entry's spans in its own file were stored without its name.
+        let stored: Stored = packwright_api::with_span_file(Some(rel.clone()), || {
             crate::deferred::decoding_within(&journal.bytes, || postcard::from_bytes(stored))
-                .ok()?;
+        })
+        .ok()?;
         // Spans and the file name are the index key's: a renamed file is
         // another entry.
-        (&*stored.item.file == rel).then_some(Reused {
+        (*stored.item.file == **rel).then_some(Reused {
             item: stored.item,
             planned: stored.planned,
         })
@@ -208,7 +212,9 @@ impl Seen {
             };
             let stamp = &self.stamps[&item.file];
             let mut entry = postcard::to_allocvec(stamp).ok()?;
-            entry.extend_from_slice(&postcard::to_allocvec(&stored).ok()?);
+            let file = Some(item.file.clone());
+            let encoded = packwright_api::with_span_file(file, || postcard::to_allocvec(&stored));
+            entry.extend_from_slice(&encoded.ok()?);
             Some(entry)
         };
         let mut changes = framed::Records::new();

@@ -327,7 +327,13 @@ impl Computed {
                 })
                 .collect();
             let spare = cache_dir.join(index::SPARE_FOLDER);
-            touched = match fsio::update_dir(results, &spare, &updates) {
+            // Stamped under the lock, the files' inodes are still those
+            // `results/` holds.
+            let in_target = self
+                .lock
+                .as_ref()
+                .map(|_| self.files.iter().map(|f| f.seen.map(|s| s.ino())).collect());
+            touched = match fsio::update_dir(results, &spare, &updates, in_target) {
                 Ok(touched) => touched,
                 Err(e) => {
                     // The spare folder may sit on another file system (a
