@@ -43,10 +43,17 @@ const OUTCOMES_FILE: &str = "outcomes.bin";
 /// file is ignored rather than misread.
 const OUTCOMES_MAGIC: &[u8; 16] = b"packwright-out-4";
 
+/// The file holding the filled inputs of items with links.
+const FILLS_FILE: &str = "fills.bin";
+
+/// First bytes of the fills file.
+const FILLS_MAGIC: &[u8; 16] = b"packwright-fil-1";
+
 /// Names in the cache folder that [`Cache::save`] keeps; anything else is
 /// an older layout's leftover (the per-digest `.json` files) and goes.
-const KEPT: [&str; 5] = [
+const KEPT: [&str; 6] = [
     OUTCOMES_FILE,
+    FILLS_FILE,
     crate::index::INDEX_FILE,
     crate::item_index::ITEMS_FILE,
     crate::index::SPARE_FOLDER,
@@ -60,6 +67,8 @@ pub struct Cache {
     /// The outcomes file, read on first use, so a `--fresh` run never
     /// reads it.
     stored: OnceLock<Stored>,
+    /// The fills file, read on first use.
+    fills: OnceLock<Option<framed::Journal>>,
 }
 
 /// Where an entry's glance and whole outcome lie in the file.
@@ -110,6 +119,7 @@ impl Cache {
         Cache {
             dir: root.join(CACHE_FOLDER),
             stored: OnceLock::new(),
+            fills: OnceLock::new(),
         }
     }
 
@@ -166,6 +176,7 @@ impl Cache {
             }
             all
         };
+        self.save_fills(outcome);
         let path = self.dir.join(OUTCOMES_FILE);
         let old = stored.0.as_ref().map(framed::Journal::shape);
         let _ = framed::save(
@@ -177,6 +188,44 @@ impl Cache {
             changes,
             whole,
         );
+    }
+
+    fn fills(&self) -> Option<&framed::Journal> {
+        self.fills
+            .get_or_init(|| framed::Journal::read(&self.dir.join(FILLS_FILE), FILLS_MAGIC))
+            .as_ref()
+    }
+
+    /// Keeps the filled inputs of this run's items with links under their
+    /// fill keys (see [`crate::run::fill_key`]): those filled anew are
+    /// appended, or the file is written whole (see [`Cache::save`]).
+    fn save_fills(&self, outcome: &RunOutcome) {
+        let old = self.fills();
+        let linked: Vec<(String, &crate::run::ItemRun)> = outcome
+            .items
+            .values()
+            .filter_map(|run| Some((hex(&run.fill_key?), run)))
+            .collect();
+        let mut changes = framed::Records::new();
+        for (name, run) in &linked {
+            if old.and_then(|j| j.get(name)).is_none() {
+                let Some(value) = fill_value(run) else { return };
+                changes.set(name, &value);
+            }
+        }
+        let whole = || {
+            let mut all = framed::Records::new();
+            for (name, run) in &linked {
+                let kept = old.and_then(|j| Some(j.bytes[j.get(name)?].to_vec()));
+                if let Some(value) = kept.or_else(|| fill_value(run)) {
+                    all.set(name, &value);
+                }
+            }
+            all
+        };
+        let path = self.dir.join(FILLS_FILE);
+        let shape = old.map(framed::Journal::shape);
+        let _ = framed::save(&path, FILLS_MAGIC, &[], shape, linked.len(), changes, whole);
     }
 
     /// Removes what an older layout of the cache left (one JSON file per
@@ -200,12 +249,65 @@ impl Cache {
     }
 }
 
+/// A fill key as a record name.
+fn hex(key: &crate::index::Hash) -> String {
+    use std::fmt::Write as _;
+    key.iter().fold(String::with_capacity(64), |mut s, b| {
+        let _ = write!(s, "{b:02x}");
+        s
+    })
+}
+
+/// A fills record's value: the inputs digest, the origins digest and the
+/// filled inputs in their stored form (spans in the item's own file
+/// without its name, as in the item index).
+fn fill_value(run: &crate::run::ItemRun) -> Option<Vec<u8>> {
+    let origins = crate::index::origins_digest(&run.inputs);
+    let file = Some(run.item.file.clone());
+    let inputs =
+        packwright_api::with_span_file(file, || crate::deferred::StoredForm::encode(&*run.inputs));
+    let mut value = Vec::new();
+    for part in [run.inputs_digest.as_bytes(), &origins[..], &inputs] {
+        value.extend_from_slice(&(part.len() as u32).to_le_bytes());
+        value.extend_from_slice(part);
+    }
+    Some(value)
+}
+
 impl OutcomeStore for Cache {
     fn get(&self, digest: &str) -> Option<SharedOutcome> {
         let stored = self.stored();
         let (glance, full) = stored.entry(digest)?;
         let bytes = stored.0.as_ref()?.bytes.clone();
         Some(SharedOutcome::encoded(bytes, glance, full))
+    }
+
+    fn filled(
+        &self,
+        item: &crate::resolve::PlannedItem,
+        key: &crate::index::Hash,
+    ) -> Option<crate::run::Filled> {
+        let journal = self.fills()?;
+        let value = journal.get(&hex(key))?;
+        let mut at = value.start;
+        let digest = framed::read_part(&journal.bytes, &mut at)?;
+        let origins = framed::read_part(&journal.bytes, &mut at)?;
+        let inputs = framed::read_part(&journal.bytes, &mut at)?;
+        if at != value.end {
+            return None;
+        }
+        let digest = std::str::from_utf8(&journal.bytes[digest])
+            .ok()?
+            .to_string();
+        let origins = journal.bytes[origins].try_into().ok()?;
+        let inputs = packwright_api::with_span_file(Some(item.file.clone()), || {
+            crate::deferred::Deferred::in_bytes(journal.bytes.clone(), inputs)
+        });
+        Some(crate::run::Filled {
+            inputs,
+            digest,
+            origins,
+        })
     }
 }
 

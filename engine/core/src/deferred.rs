@@ -81,7 +81,7 @@ impl<T: StoredForm> Deferred<T> {
 
     /// The stored form: the bytes read, when they were stored leaving out
     /// the same file's name as is left out now, or else the value encoded.
-    fn stored_form(&self) -> std::borrow::Cow<'_, [u8]> {
+    pub(crate) fn stored_form(&self) -> std::borrow::Cow<'_, [u8]> {
         match &self.0.stored {
             Some((bytes, range)) if self.0.span_file == packwright_api::span_file() => {
                 std::borrow::Cow::Borrowed(&bytes[range.clone()])

@@ -324,9 +324,10 @@ impl Index {
 /// premise); the rest of the file is the item's id, module, title and the
 /// words for where each input came from, which the digest leaves out.
 pub fn result_key(run: &ItemRun) -> Hash {
-    let origins = match &run.item.own_digests {
-        Some(own) => own.origins,
-        None => origins_digest(&run.inputs),
+    let origins = match (&run.item.own_digests, run.origins_digest) {
+        (Some(own), _) => own.origins,
+        (None, Some(known)) => known,
+        (None, None) => origins_digest(&run.inputs),
     };
     let mut h = Sha256::new();
     let mut field = |s: &[u8]| {

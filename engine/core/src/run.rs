@@ -36,6 +36,13 @@ pub struct ItemRun {
     pub outcome: SharedOutcome,
     /// Whether the outcome came from the cache rather than a computation.
     pub from_cache: bool,
+    /// The digest of the inputs' names and origins
+    /// ([`crate::index::origins_digest`]), when it was at hand without
+    /// decoding the inputs (an item whose links were filled as before).
+    pub origins_digest: Option<crate::index::Hash>,
+    /// The [`fill_key`] of an item with links, when it was looked up in
+    /// a store (which keeps its filled inputs under it).
+    pub(crate) fill_key: Option<crate::index::Hash>,
 }
 
 /// Why an item produced no results.
@@ -66,6 +73,74 @@ pub struct RunOutcome {
 pub trait OutcomeStore: Sync {
     /// An earlier outcome for this digest, if any.
     fn get(&self, digest: &str) -> Option<SharedOutcome>;
+
+    /// The inputs of `item` (which has links) as filled before under this
+    /// [`fill_key`], if the store keeps them.
+    fn filled(&self, item: &PlannedItem, key: &crate::index::Hash) -> Option<Filled> {
+        let _ = (item, key);
+        None
+    }
+}
+
+/// An item's inputs with its links filled, and what is digested of them.
+pub struct Filled {
+    /// The inputs, links filled.
+    pub inputs: Deferred<Inputs>,
+    /// Their digest ([`digest`]).
+    pub digest: String,
+    /// The digest of their names and origins
+    /// ([`crate::index::origins_digest`]).
+    pub origins: crate::index::Hash,
+}
+
+/// The value each link of `item` takes from the items run so far, as the
+/// bits of its SI value and its dimension; `None` when a source has not
+/// run or lacks the output.
+pub fn link_values(
+    item: &PlannedItem,
+    done: &BTreeMap<String, ItemRun>,
+) -> Option<Vec<(u64, packwright_api::Dimension)>> {
+    item.links
+        .iter()
+        .map(|link| {
+            let m = done.get(&link.item)?.outcome.output(&link.output)?;
+            Some((m.value.to_bits(), m.dimension))
+        })
+        .collect()
+}
+
+/// The key under which an item's filled inputs are kept: a digest of all
+/// [`fill_links`] makes them from (the item's resolved inputs in their
+/// stored form, its links and their values) and of the module the digest
+/// names. An item with links takes its filled inputs and their digests
+/// from the store under this key rather than decoding, copying and
+/// digesting its inputs again: most items with links in a rerun link to
+/// items that did not change.
+pub fn fill_key(
+    item: &PlannedItem,
+    values: &[(u64, packwright_api::Dimension)],
+    decl: &ModuleDeclaration,
+    fingerprint: Option<&str>,
+) -> crate::index::Hash {
+    let mut h = Sha256::new();
+    let mut field = |bytes: &[u8]| {
+        h.update((bytes.len() as u64).to_le_bytes());
+        h.update(bytes);
+    };
+    field(b"packwright fill 1");
+    field(TOOL_VERSION.as_bytes());
+    field(decl.name.as_bytes());
+    field(decl.version.as_bytes());
+    field(fingerprint.unwrap_or("-").as_bytes());
+    field(item.file.as_bytes());
+    // The stored form leaves out the item's own file's name in spans, as
+    // in the item index, whose bytes it then is.
+    packwright_api::with_span_file(Some(item.file.clone()), || {
+        field(&item.inputs.stored_form());
+    });
+    field(&postcard::to_allocvec(&item.links).unwrap_or_default());
+    field(&postcard::to_allocvec(values).unwrap_or_default());
+    h.finalize().into()
 }
 
 pub use crate::deferred::Encoded;
@@ -355,12 +430,11 @@ pub fn verify_outcome(
     Ok(())
 }
 
-fn fill_links(item: &PlannedItem, done: &BTreeMap<String, ItemRun>) -> Option<Deferred<Inputs>> {
+/// The item's resolved inputs with each link's value (see [`link_values`]).
+fn fill_links(item: &PlannedItem, values: &[(u64, packwright_api::Dimension)]) -> Deferred<Inputs> {
     let mut inputs = item.inputs.clone();
-    for link in &item.links {
-        let source = done.get(&link.item)?;
-        let m: &Measure = source.outcome.output(&link.output)?;
-        let value = Value::from_si(m.value, m.dimension);
+    for (link, &(bits, dimension)) in item.links.iter().zip(values) {
+        let value = Value::from_si(f64::from_bits(bits), dimension);
         inputs.make_mut().values.insert(
             link.input.clone(),
             ResolvedInput {
@@ -374,7 +448,7 @@ fn fill_links(item: &PlannedItem, done: &BTreeMap<String, ItemRun>) -> Option<De
             },
         );
     }
-    Some(inputs)
+    inputs
 }
 
 /// Runs every item of the plan, level by level, items of a level in
@@ -400,7 +474,7 @@ pub fn run_with_progress(
         level.par_iter().for_each(|id| {
             let item = &plan.items[id];
             let _tick = Tick(progress, id);
-            let Some(inputs) = fill_links(item, &result.items) else {
+            let Some(values) = link_values(item, &result.items) else {
                 skipped.lock().expect("not poisoned").push(id.clone());
                 return;
             };
@@ -408,9 +482,21 @@ pub fn run_with_progress(
                 .get(&item.module)
                 .expect("planned items have modules");
             let decl = &registered.declaration;
-            let digest = match &item.own_digests {
-                Some(own) => own.inputs.clone(),
-                None => digest(&inputs, decl, registered.fingerprint.as_deref()),
+            let fingerprint = registered.fingerprint.as_deref();
+            let fill_key = store
+                .filter(|_| item.own_digests.is_none())
+                .map(|_| fill_key(item, &values, decl, fingerprint));
+            let filled = store
+                .zip(fill_key.as_ref())
+                .and_then(|(s, k)| s.filled(item, k));
+            let (inputs, digest, origins_digest) = match (&item.own_digests, filled) {
+                (Some(own), _) => (item.inputs.clone(), own.inputs.clone(), None),
+                (None, Some(f)) => (f.inputs, f.digest, Some(f.origins)),
+                (None, None) => {
+                    let inputs = fill_links(item, &values);
+                    let digest = digest(&inputs, decl, fingerprint);
+                    (inputs, digest, None)
+                }
             };
             let cached = store.and_then(|s| s.get(&digest));
             let from_cache = cached.is_some();
@@ -427,6 +513,8 @@ pub fn run_with_progress(
                     inputs_digest: digest,
                     outcome,
                     from_cache,
+                    origins_digest,
+                    fill_key,
                 }),
                 Err(error) => failures.lock().expect("not poisoned").push(ItemFailure {
                     item: id.clone(),

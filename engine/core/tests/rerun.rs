@@ -406,6 +406,45 @@ fn a_rerun_decodes_nothing_of_an_unchanged_item_without_links() {
 }
 
 #[test]
+fn items_whose_links_give_the_values_as_before_take_their_filled_inputs_from_the_cache() {
+    let registry = registry();
+    let dir = indexed_project(&registry);
+    let root = dir.path();
+    // D links to nothing and nothing links to it: B and C link to
+    // unchanged items.
+    fs::write(root.join("items/d.yaml"), item("D", "speed: 3.5 m/s")).expect("write");
+    let (_, one) =
+        packwright_core::run_project(root, &registry, RunOptions::default()).expect("runs");
+    assert_eq!(computed(&one), ["D"]);
+    for id in ["B", "C"] {
+        let run = &one.items[id];
+        assert!(!run.inputs.is_decoded(), "{id} filled from the cache");
+        assert!(run.origins_digest.is_some(), "{id}");
+    }
+    assert_eq!(results(root), fresh_results(root));
+    // Looked at, the stored inputs are those a fresh run fills.
+    let fresh = run(root, true);
+    for id in ["B", "C"] {
+        let shown = |inputs: &packwright_api::Inputs| format!("{inputs:?}");
+        assert_eq!(shown(&one.items[id].inputs), shown(&fresh.items[id].inputs));
+        assert_eq!(one.items[id].inputs_digest, fresh.items[id].inputs_digest);
+        assert_eq!(
+            one.items[id].origins_digest,
+            Some(packwright_core::index::origins_digest(
+                &fresh.items[id].inputs
+            ))
+        );
+    }
+    // A changed source value is not taken from the cache.
+    fs::write(root.join("items/a.yaml"), item("A", "speed: 2.5 m/s")).expect("write");
+    let (_, two) =
+        packwright_core::run_project(root, &registry, RunOptions::default()).expect("runs");
+    assert_eq!(computed(&two), ["A", "B", "C"]);
+    assert_eq!(two.items["B"].origins_digest, None);
+    assert_eq!(results(root), fresh_results(root));
+}
+
+#[test]
 fn the_item_index_sees_an_edit_that_keeps_size_and_modification_time() {
     let registry = registry();
     let dir = indexed_project(&registry);
