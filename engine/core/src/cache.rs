@@ -251,11 +251,9 @@ impl Cache {
 
 /// A fill key as a record name.
 fn hex(key: &crate::index::Hash) -> String {
-    use std::fmt::Write as _;
-    key.iter().fold(String::with_capacity(64), |mut s, b| {
-        let _ = write!(s, "{b:02x}");
-        s
-    })
+    let mut name = String::with_capacity(64);
+    crate::fast::push_hex(&mut name, key);
+    name
 }
 
 /// A fills record's value: the inputs digest, the origins digest and the

@@ -113,6 +113,13 @@ pub(crate) struct Journal {
     shape: Shape,
 }
 
+impl Shape {
+    /// How many names the file holds.
+    pub(crate) fn names(&self) -> usize {
+        self.names
+    }
+}
+
 impl Journal {
     /// The file at `path`, when it is one this build wrote with this tag.
     pub(crate) fn read(path: &Path, tag: &[u8; 16]) -> Option<Journal> {

@@ -47,7 +47,7 @@ use crate::resolve::PlannedItem;
 pub const ITEMS_FILE: &str = "items.bin";
 
 /// First bytes of the file; a new layout gets a new tag.
-const MAGIC: &[u8; 16] = b"packwright-itm-4";
+const MAGIC: &[u8; 16] = b"packwright-itm-5";
 
 /// How long before the stat a file's last change must lie for its stamp to
 /// vouch for what is then read. Linux stamps files from a clock that moves
@@ -77,11 +77,71 @@ pub fn resolve_key(registry: &Registry, materials: &BTreeMap<String, Material>) 
     h.finalize().into()
 }
 
-/// What an index entry holds, besides its stamp.
-#[derive(serde::Serialize, serde::Deserialize)]
+/// What an index entry holds, besides its stamp: the parsed item and the
+/// parts of its resolved form that the parsed item does not hold (the
+/// id, title, notes and file are the same; stored twice, they were a
+/// fifth of the index).
+#[derive(serde::Deserialize)]
 struct Stored {
     item: ItemFile,
-    planned: Option<PlannedItem>,
+    planned: Option<PlannedParts>,
+}
+
+/// The parts of a [`PlannedItem`] that its [`ItemFile`] does not hold.
+#[derive(serde::Deserialize)]
+struct PlannedParts {
+    module: String,
+    inputs: crate::deferred::Deferred<packwright_api::Inputs>,
+    links: Vec<crate::resolve::Link>,
+    materials: Vec<(String, String)>,
+    own_digests: Option<crate::resolve::OwnDigests>,
+}
+
+impl PlannedParts {
+    /// The resolved item of `item`.
+    fn planned(self, item: &ItemFile) -> PlannedItem {
+        PlannedItem {
+            id: item.id.clone(),
+            module: self.module,
+            title: item.title.clone(),
+            notes: item.notes.clone(),
+            file: item.file.clone(),
+            inputs: self.inputs,
+            links: self.links,
+            materials: self.materials,
+            own_digests: self.own_digests,
+        }
+    }
+}
+
+/// [`Stored`] as written, borrowing the run's item (the same fields, in
+/// the same order).
+#[derive(serde::Serialize)]
+struct StoredRef<'a> {
+    item: &'a ItemFile,
+    planned: Option<PlannedPartsRef<'a>>,
+}
+
+/// [`PlannedParts`] as written.
+#[derive(serde::Serialize)]
+struct PlannedPartsRef<'a> {
+    module: &'a str,
+    inputs: &'a crate::deferred::Deferred<packwright_api::Inputs>,
+    links: &'a [crate::resolve::Link],
+    materials: &'a [(String, String)],
+    own_digests: &'a Option<crate::resolve::OwnDigests>,
+}
+
+impl<'a> PlannedPartsRef<'a> {
+    fn of(planned: &'a PlannedItem) -> PlannedPartsRef<'a> {
+        PlannedPartsRef {
+            module: &planned.module,
+            inputs: &planned.inputs,
+            links: &planned.links,
+            materials: &planned.materials,
+            own_digests: &planned.own_digests,
+        }
+    }
 }
 
 /// An item taken from the index.
@@ -133,9 +193,9 @@ impl ItemIndex {
         .ok()?;
         // Spans and the file name are the index key's: a renamed file is
         // another entry.
-        (*stored.item.file == **rel).then_some(Reused {
+        (*stored.item.file == **rel).then(|| Reused {
+            planned: stored.planned.map(|parts| parts.planned(&stored.item)),
             item: stored.item,
-            planned: stored.planned,
         })
     }
 
@@ -206,9 +266,9 @@ impl Seen {
                 .flatten()
         };
         let fresh = |item: &ItemFile| {
-            let stored = Stored {
-                item: item.clone(),
-                planned: planned(&item.id).cloned(),
+            let stored = StoredRef {
+                item,
+                planned: planned(&item.id).map(PlannedPartsRef::of),
             };
             let stamp = &self.stamps[&item.file];
             let mut entry = postcard::to_allocvec(stamp).ok()?;

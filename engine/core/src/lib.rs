@@ -38,6 +38,30 @@ pub mod fast {
     pub type HashMap<K, V> = std::collections::HashMap<K, V, foldhash::fast::RandomState>;
     /// A hash set with foldhash.
     pub type HashSet<K> = std::collections::HashSet<K, foldhash::fast::RandomState>;
+
+    /// Appends the lowercase hexadecimal text of `bytes` to `out`. A
+    /// `write!` of each byte went through the formatting machinery, which
+    /// was a visible part of keying a thousand items.
+    pub fn push_hex(out: &mut String, bytes: &[u8]) {
+        const DIGITS: &[u8; 16] = b"0123456789abcdef";
+        out.reserve(2 * bytes.len());
+        for b in bytes {
+            out.push(char::from(DIGITS[usize::from(b >> 4)]));
+            out.push(char::from(DIGITS[usize::from(b & 15)]));
+        }
+    }
+
+    #[cfg(test)]
+    mod tests {
+        #[test]
+        fn hex_text_is_that_of_the_formatter() {
+            let bytes: Vec<u8> = (0..=255).collect();
+            let mut fast = String::new();
+            super::push_hex(&mut fast, &bytes);
+            let formatted: String = bytes.iter().map(|b| format!("{b:02x}")).collect();
+            assert_eq!(fast, formatted);
+        }
+    }
 }
 
 use std::collections::BTreeMap;
@@ -182,19 +206,19 @@ struct ResultFile {
     row: Option<String>,
 }
 
-/// Makes one result file: from the index when `results/` holds the file
-/// the index describes under the same key, otherwise formatted and compared
-/// with what is on disk (by the index's digest when the stamp matches, by
-/// reading the file when not).
+/// Makes one result file: from its index entry (`stored`) when `results/`
+/// holds the file the entry describes under the same key, otherwise
+/// formatted and compared with what is on disk (by the entry's digest when
+/// the stamp matches, by reading the file when not).
 fn result_file(
     results: &index::Folder,
-    index: &index::Index,
+    stored: Option<index::Entry>,
     name: String,
     key: Option<index::Hash>,
     text: impl FnOnce() -> String,
 ) -> ResultFile {
-    let verified = index.verified(results, &name);
-    if let (Some(k), Some(entry)) = (key, verified) {
+    let verified = stored.filter(|entry| results.stamp(&name) == Some(entry.stamp));
+    if let (Some(k), Some(entry)) = (key, &verified) {
         if entry.key == Some(k) {
             return ResultFile {
                 content: entry.content,
@@ -476,13 +500,15 @@ pub fn compute_project(
             let key = index::result_key(run);
             // The index's summary line of an item under the same key; a
             // line made again would decode the item's outcome.
-            let row = index
-                .files
-                .get(&name)
+            let mut stored = index.get(&name);
+            // The index's summary line of an item under the same key; a
+            // line made again would decode the item's outcome.
+            let row = stored
+                .as_mut()
                 .filter(|e| e.key == Some(key))
-                .and_then(|e| e.row.clone())
+                .and_then(|e| e.row.take())
                 .unwrap_or_else(|| results::summary_row(run, &keys));
-            let mut file = result_file(&results_dir, &index, name, Some(key), || {
+            let mut file = result_file(&results_dir, stored, name, Some(key), || {
                 results::item_yaml(run)
             });
             file.row = Some(row);
@@ -492,7 +518,7 @@ pub fn compute_project(
     let summary_key = index::summary_key(&outcome, &keys);
     let summary = result_file(
         &results_dir,
-        &index,
+        index.get("summary.csv"),
         "summary.csv".into(),
         Some(summary_key),
         || {

@@ -618,7 +618,6 @@ pub fn plan_reusing(
     mut reused: HashMap<std::sync::Arc<str>, PlannedItem>,
 ) -> Result<Plan, Diagnostics> {
     let mut out = Diagnostics::default();
-    let mut items = BTreeMap::new();
     let known: Vec<&str> = registry.names().collect();
     let by_id: HashMap<&str, &ItemFile> =
         project.items.iter().map(|i| (i.id.as_str(), i)).collect();
@@ -672,12 +671,15 @@ pub fn plan_reusing(
             (ok.then_some(planned), out)
         })
         .collect();
+    // In id order (the items are), so the map is built in one pass.
+    let mut in_order = Vec::with_capacity(resolved.len());
     for (planned, problems) in resolved {
         out.0.extend(problems.0);
         if let Some(planned) = planned {
-            items.insert(planned.id.clone(), std::sync::Arc::new(planned));
+            in_order.push((planned.id.clone(), std::sync::Arc::new(planned)));
         }
     }
+    let items: BTreeMap<String, std::sync::Arc<PlannedItem>> = in_order.into_iter().collect();
     let levels = order(project, &items, &mut out);
     if out.is_empty() {
         Ok(Plan { items, levels })
@@ -696,14 +698,23 @@ fn order(
     planned: &BTreeMap<String, std::sync::Arc<PlannedItem>>,
     out: &mut Diagnostics,
 ) -> Vec<Vec<String>> {
-    let ids: BTreeSet<&str> = project.items.iter().map(|i| i.id.as_str()).collect();
-    let mut deps: BTreeMap<&str, BTreeSet<&str>> = BTreeMap::new();
+    // Items by number, in id order; each level is taken in that order. A
+    // level is the items whose last link source is in the level before
+    // (Kahn's method, level by level): looking for them among all items
+    // anew for every level, in maps of names, was a visible part of a
+    // rerun of a thousand items.
+    let mut ids: Vec<&str> = project.items.iter().map(|i| i.id.as_str()).collect();
+    ids.sort_unstable();
+    ids.dedup();
+    let number: crate::fast::HashMap<&str, usize> =
+        ids.iter().enumerate().map(|(n, id)| (*id, n)).collect();
+    let mut deps: Vec<Vec<usize>> = vec![Vec::new(); ids.len()];
     for item in &project.items {
-        let entry = deps.entry(item.id.as_str()).or_default();
+        let me = number[item.id.as_str()];
         let mut depend_on = |target: &str| {
-            if let Some(t) = ids.get(target) {
-                if *t != item.id {
-                    entry.insert(t);
+            if let Some(&t) = number.get(target) {
+                if t != me {
+                    deps[me].push(t);
                 }
             }
         };
@@ -718,20 +729,44 @@ fn order(
             }
         }
     }
-    let mut done: BTreeSet<&str> = BTreeSet::new();
+    let mut dependants: Vec<Vec<usize>> = vec![Vec::new(); ids.len()];
+    let mut waiting: Vec<usize> = vec![0; ids.len()];
+    for (n, d) in deps.iter_mut().enumerate() {
+        d.sort_unstable();
+        d.dedup();
+        waiting[n] = d.len();
+        d.iter().for_each(|&t| dependants[t].push(n));
+    }
+    let mut placed = vec![false; ids.len()];
+    let mut level: Vec<usize> = (0..ids.len()).filter(|&n| waiting[n] == 0).collect();
     let mut levels = Vec::new();
-    while done.len() < deps.len() {
-        let level: Vec<&str> = deps
-            .iter()
-            .filter(|(id, d)| !done.contains(*id) && d.iter().all(|x| done.contains(x)))
-            .map(|(id, _)| *id)
-            .collect();
-        if level.is_empty() {
-            report_cycle(project, &deps, &done, out);
-            return levels;
+    while !level.is_empty() {
+        let mut next = Vec::new();
+        for &n in &level {
+            placed[n] = true;
+            for &d in &dependants[n] {
+                waiting[d] -= 1;
+                if waiting[d] == 0 {
+                    next.push(d);
+                }
+            }
         }
-        done.extend(level.iter().copied());
-        levels.push(level.into_iter().map(String::from).collect());
+        next.sort_unstable();
+        levels.push(level.iter().map(|&n| ids[n].to_string()).collect());
+        level = next;
+    }
+    if placed.contains(&false) {
+        let by_name = |n: &usize| ids[*n];
+        let deps: BTreeMap<&str, BTreeSet<&str>> = deps
+            .iter()
+            .enumerate()
+            .map(|(n, d)| (ids[n], d.iter().map(by_name).collect()))
+            .collect();
+        let done: BTreeSet<&str> = (0..ids.len())
+            .filter(|&n| placed[n])
+            .map(|n| ids[n])
+            .collect();
+        report_cycle(project, &deps, &done, out);
     }
     levels
 }

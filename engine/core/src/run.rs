@@ -335,10 +335,7 @@ pub fn digest(inputs: &Inputs, decl: &ModuleDeclaration, fingerprint: Option<&st
     let bytes = h.finalize();
     let mut text = String::with_capacity(7 + 64);
     text.push_str("sha256:");
-    for b in bytes {
-        use std::fmt::Write as _;
-        let _ = write!(text, "{b:02x}");
-    }
+    crate::fast::push_hex(&mut text, &bytes);
     text
 }
 
