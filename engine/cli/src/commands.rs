@@ -210,7 +210,7 @@ fn run_and_maybe_package(dir: &Path, strict: bool, fresh: bool, package: bool, o
                 format!(
                     "{} = {}",
                     spec.name,
-                    display::joined(display::output(value, Some(spec), system))
+                    display::joined(display::output(&value, Some(spec), system))
                 )
             })
             .unwrap_or_default();

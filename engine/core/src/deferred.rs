@@ -9,7 +9,7 @@ use std::ops::Range;
 use std::sync::{Arc, OnceLock};
 
 /// Stored bytes, shared by the values read from them.
-pub type Encoded = Arc<[u8]>;
+pub type Encoded = Arc<Vec<u8>>;
 
 /// How a type is written into the cache files and read back.
 pub trait StoredForm: Sized {
@@ -177,7 +177,7 @@ impl<'de, T: StoredForm> serde::Deserialize<'de> for Deferred<T> {
                 })
             }
             fn visit_bytes<E: serde::de::Error>(self, bytes: &[u8]) -> Result<Deferred<T>, E> {
-                Ok(Deferred::in_bytes(bytes.into(), 0..bytes.len()))
+                Ok(Deferred::in_bytes(Arc::new(bytes.to_vec()), 0..bytes.len()))
             }
         }
         d.deserialize_bytes(Bytes(std::marker::PhantomData))

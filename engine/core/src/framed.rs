@@ -129,7 +129,10 @@ impl Journal {
     /// A file's bytes read as a journal (see the module comment).
     pub(crate) fn parse(bytes: crate::deferred::Encoded, tag: &[u8; 16]) -> Option<Journal> {
         let (mut at, key) = open_head(&bytes, tag)?;
-        let mut latest: crate::fast::HashMap<String, Range<usize>> = Default::default();
+        // Sized for the records of a file of a thousand items' kind, so the
+        // map seldom grows while it is filled.
+        let mut latest: crate::fast::HashMap<String, Range<usize>> =
+            crate::fast::HashMap::with_capacity_and_hasher(bytes.len() / 256, Default::default());
         let mut live = 0;
         let clean = loop {
             if at == bytes.len() {
@@ -195,18 +198,12 @@ impl Journal {
 }
 
 /// A file's bytes, read straight into memory that values decoded from
-/// them can share (see [`crate::deferred`]) without a copy.
+/// them can share (see [`crate::deferred`]) without a copy (nor a pass
+/// zeroing it first).
 fn read_shared(path: &Path) -> io::Result<crate::deferred::Encoded> {
-    let mut file = fs::File::open(path)?;
-    let len = usize::try_from(file.metadata()?.len())
-        .map_err(|_| io::Error::new(io::ErrorKind::InvalidData, "file too large"))?;
-    let mut bytes: crate::deferred::Encoded = std::iter::repeat_n(0u8, len).collect();
-    // Just made, so not shared. A file that grew since its length was
-    // taken (another run appending) is read as it was then, up to a
-    // batch's end.
-    let buffer = std::sync::Arc::get_mut(&mut bytes).expect("not shared");
-    file.read_exact(buffer)?;
-    Ok(bytes)
+    // A file that grows while it is read (another run appending) is read
+    // to where it ends then; the reader stops at the last whole batch.
+    Ok(std::sync::Arc::new(fs::read(path)?))
 }
 
 /// The body of the batch at `at`, moving past it; `None` when it is
@@ -376,7 +373,8 @@ mod tests {
         bytes.extend_from_slice(&records(&[("a", b"1")]).batch());
         let batch = records(&[("b", b"2")]).batch();
         bytes.extend_from_slice(&batch[..batch.len() - 1]);
-        let read = Journal::parse(bytes.as_slice().into(), TAG).expect("the head is whole");
+        let read =
+            Journal::parse(std::sync::Arc::new(bytes.clone()), TAG).expect("the head is whole");
         assert_eq!(names(&read), [("a".into(), b"1".to_vec())]);
         std::fs::write(&path, &bytes).expect("write");
         let changes = records(&[("c", b"3")]);
@@ -393,7 +391,7 @@ mod tests {
     #[test]
     fn a_damaged_or_foreign_head_is_not_opened() {
         let good = head(TAG, b"k").expect("the test binary has an identity");
-        let parse = |bytes: &[u8], tag| Journal::parse(bytes.into(), tag);
+        let parse = |bytes: &[u8], tag| Journal::parse(std::sync::Arc::new(bytes.to_vec()), tag);
         assert!(parse(&good, TAG).is_some());
         let mut bad = good.clone();
         let last = bad.len() - 1;

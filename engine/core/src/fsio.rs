@@ -225,14 +225,14 @@ pub fn update_dir(
     let mut touched = vec![true; files.len()];
     let mut to_sync = Vec::new();
     for (i, ((name, update), touched)) in files.iter().zip(&mut touched).enumerate() {
-        let path = spare.join(name);
         let shared = in_spare[i].is_some() && in_spare[i] == in_target[i];
+        if shared && matches!(update, Update::Keep) {
+            *touched = false;
+            continue;
+        }
+        let path = spare.join(name);
         match update {
             Update::Keep => {
-                if shared {
-                    *touched = false;
-                    continue;
-                }
                 remove_any(&path)?;
                 let old = target.join(name);
                 if fs::hard_link(&old, &path).is_err() {

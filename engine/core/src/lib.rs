@@ -131,6 +131,8 @@ fn check_indexed(
     if let Some(index) = index {
         seen.resolve_key = item_index::resolve_key(registry, &project.materials);
         let same_key = index.resolve_key() == seen.resolve_key;
+        reused.reserve(loaded.reused.len());
+        seen.reused.reserve(loaded.reused.len());
         for (file, planned) in loaded.reused {
             if let Some(planned) = planned.filter(|_| same_key) {
                 reused.insert(file.clone(), planned);
@@ -204,6 +206,9 @@ struct ResultFile {
     seen: Option<index::Stamp>,
     /// An item's line of `summary.csv`, kept in the index.
     row: Option<String>,
+    /// Whether the index entry of the file is taken as it is (the file not
+    /// formatted, its summary line the entry's).
+    from_index: bool,
 }
 
 /// Makes one result file: from its index entry (`stored`) when `results/`
@@ -228,6 +233,7 @@ fn result_file(
                 bytes: None,
                 on_disk: true,
                 row: None,
+                from_index: true,
             };
         }
     }
@@ -249,6 +255,7 @@ fn result_file(
         on_disk,
         seen,
         row: None,
+        from_index: false,
     }
 }
 
@@ -389,6 +396,7 @@ impl Computed {
                     content: f.content,
                     stamp,
                     row: f.row.as_deref(),
+                    as_stored: f.from_index && !touched,
                 })
             })
             .collect();
@@ -503,15 +511,17 @@ pub fn compute_project(
             let mut stored = index.get(&name);
             // The index's summary line of an item under the same key; a
             // line made again would decode the item's outcome.
-            let row = stored
+            let stored_row = stored
                 .as_mut()
                 .filter(|e| e.key == Some(key))
-                .and_then(|e| e.row.take())
-                .unwrap_or_else(|| results::summary_row(run, &keys));
+                .and_then(|e| e.row.take());
+            let row_stored = stored_row.is_some();
+            let row = stored_row.unwrap_or_else(|| results::summary_row(run, &keys));
             let mut file = result_file(&results_dir, stored, name, Some(key), || {
                 results::item_yaml(run)
             });
             file.row = Some(row);
+            file.from_index &= row_stored;
             file
         })
         .collect();

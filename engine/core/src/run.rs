@@ -155,8 +155,22 @@ pub use crate::deferred::Encoded;
 #[derive(Clone)]
 pub struct SharedOutcome {
     full: Deferred<Outcome>,
-    /// The glance alone, for an outcome taken from the cache.
-    glance: Option<Deferred<Glance>>,
+    /// The glance alone, in its stored form, for an outcome taken from the
+    /// cache: read in place for each look ([`GlanceView`]), which costs
+    /// less than making its map of owned names once.
+    glance: Option<(Encoded, Range<usize>)>,
+}
+
+/// A [`Glance`] read in place from its stored form: the same bytes (a
+/// map is stored as a sequence of pairs), names borrowed (the outputs'
+/// as bytes, compared with a name looked for rather than checked as
+/// text, for each look).
+#[derive(serde::Deserialize)]
+struct GlanceView<'a> {
+    #[serde(borrow)]
+    outputs: Vec<(&'a [u8], Measure)>,
+    #[serde(borrow)]
+    checks: Vec<(&'a str, packwright_api::Status)>,
 }
 
 /// The outputs of an outcome and the name and status of each of its
@@ -195,23 +209,26 @@ impl SharedOutcome {
     pub fn encoded(bytes: Encoded, glance: Range<usize>, full: Range<usize>) -> SharedOutcome {
         SharedOutcome {
             full: Deferred::in_bytes(bytes.clone(), full),
-            glance: Some(Deferred::in_bytes(bytes, glance)),
+            glance: Some((bytes, glance)),
         }
     }
 
-    /// The glance, unless the whole outcome is at hand.
-    fn glance(&self) -> Option<&Glance> {
-        self.glance
-            .as_ref()
-            .filter(|_| !self.full.is_decoded())
-            .map(|g| &**g)
+    /// The glance read in place, unless the whole outcome is at hand (or
+    /// the glance does not read, when the whole outcome answers).
+    fn glance(&self) -> Option<GlanceView<'_>> {
+        let (bytes, range) = self.glance.as_ref().filter(|_| !self.full.is_decoded())?;
+        postcard::from_bytes(&bytes[range.clone()]).ok()
     }
 
     /// One output, without decoding the rest of the outcome.
-    pub fn output(&self, name: &str) -> Option<&Measure> {
+    pub fn output(&self, name: &str) -> Option<Measure> {
         match self.glance() {
-            Some(glance) => glance.outputs.get(name),
-            None => self.full.outputs.get(name),
+            Some(glance) => glance
+                .outputs
+                .iter()
+                .find(|(n, _)| *n == name.as_bytes())
+                .map(|(_, m)| *m),
+            None => self.full.outputs.get(name).copied(),
         }
     }
 
@@ -219,11 +236,7 @@ impl SharedOutcome {
     /// outcome.
     pub fn check_statuses(&self) -> Vec<(&str, packwright_api::Status)> {
         match self.glance() {
-            Some(glance) => glance
-                .checks
-                .iter()
-                .map(|(n, s)| (n.as_str(), *s))
-                .collect(),
+            Some(glance) => glance.checks,
             None => self
                 .full
                 .checks

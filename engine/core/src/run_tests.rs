@@ -267,10 +267,13 @@ fn a_stored_outcome_answers_outputs_and_checks_from_its_glance() {
     let outcome = Fake(Fault::None).compute(&inputs(2.0)).expect("computes");
     let glance = super::Glance::encode_of(&outcome).expect("encodes");
     let full = postcard::to_allocvec(&outcome).expect("encodes");
-    let bytes: super::Encoded = [glance.as_slice(), full.as_slice()].concat().into();
+    let bytes: super::Encoded = std::sync::Arc::new([glance.as_slice(), full.as_slice()].concat());
     let whole = glance.len()..bytes.len();
     let stored = super::SharedOutcome::encoded(bytes, 0..glance.len(), whole);
-    assert_eq!(stored.output("force"), outcome.outputs.get("force"));
+    assert_eq!(
+        stored.output("force").as_ref(),
+        outcome.outputs.get("force")
+    );
     assert_eq!(
         stored.check_statuses(),
         [("force_small", packwright_api::Status::Pass)]
