@@ -54,7 +54,7 @@ pub use declare::{
     Bound, CheckSpec, CriterionSpec, InputKind, InputSpec, MethodStep, ModuleDeclaration, Need,
     OutputSpec, Range,
 };
-pub use node::{span_file, with_span_file, Node, NodeValue, Span};
+pub use node::{file_name, span_file, with_span_file, Node, NodeValue, Span};
 pub use units::{Dimension, UnitSystem};
 
 /// A calculation module. Built-in modules and external ones (a process

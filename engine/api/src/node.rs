@@ -15,7 +15,7 @@ use std::sync::Arc;
 )]
 pub struct Span {
     /// Path of the file relative to the project root, with `/` separators.
-    #[serde(serialize_with = "elided_file", deserialize_with = "shared_file")]
+    #[serde(with = "file_name")]
     pub file: Arc<str>,
     /// Line, counting from 1.
     pub line: u32,
@@ -64,43 +64,50 @@ pub fn span_file() -> Option<Arc<str>> {
     SPAN_FILE.with(|s| s.borrow().clone())
 }
 
-/// Writes a span's file name, or nothing for the file [`with_span_file`]
-/// set.
-fn elided_file<S: serde::Serializer>(file: &Arc<str>, s: S) -> Result<S::Ok, S::Error> {
-    let implied = SPAN_FILE.with(|c| c.borrow().as_deref() == Some(&**file));
-    s.serialize_str(if implied { "" } else { file })
-}
+/// How a file name is stored (as in a [`Span`], and for a struct's own
+/// file with `#[serde(with = "packwright_api::file_name")]`): nothing for
+/// the file [`with_span_file`] set, and read back sharing one allocation
+/// among the names of one file read in a row on a thread.
+pub mod file_name {
+    use super::*;
 
-/// Reads a span's file name, sharing one allocation among the spans of one
-/// file read in a row on a thread: every node of an item names its file,
-/// and an allocation each was a visible part of reading a stored item. No
-/// name is the file [`with_span_file`] set.
-fn shared_file<'de, D: serde::Deserializer<'de>>(d: D) -> Result<Arc<str>, D::Error> {
-    thread_local! {
-        static LAST: RefCell<Option<Arc<str>>> = const { RefCell::new(None) };
+    /// Writes a file name, or nothing for the file [`with_span_file`] set.
+    pub fn serialize<S: serde::Serializer>(file: &Arc<str>, s: S) -> Result<S::Ok, S::Error> {
+        let implied = SPAN_FILE.with(|c| c.borrow().as_deref() == Some(&**file));
+        s.serialize_str(if implied { "" } else { file })
     }
-    struct Name;
-    impl serde::de::Visitor<'_> for Name {
-        type Value = Arc<str>;
-        fn expecting(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-            f.write_str("a file name")
+
+    /// Reads a file name, sharing one allocation among the names of one
+    /// file read in a row on a thread: every node of an item names its
+    /// file, and an allocation each was a visible part of reading a stored
+    /// item. No name is the file [`with_span_file`] set.
+    pub fn deserialize<'de, D: serde::Deserializer<'de>>(d: D) -> Result<Arc<str>, D::Error> {
+        thread_local! {
+            static LAST: RefCell<Option<Arc<str>>> = const { RefCell::new(None) };
         }
-        fn visit_str<E: serde::de::Error>(self, name: &str) -> Result<Arc<str>, E> {
-            if name.is_empty() {
-                if let Some(file) = span_file() {
-                    return Ok(file);
-                }
+        struct Name;
+        impl serde::de::Visitor<'_> for Name {
+            type Value = Arc<str>;
+            fn expecting(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+                f.write_str("a file name")
             }
-            Ok(LAST.with(|last| {
-                let mut last = last.borrow_mut();
-                match &*last {
-                    Some(file) if **file == *name => file.clone(),
-                    _ => last.insert(Arc::from(name)).clone(),
+            fn visit_str<E: serde::de::Error>(self, name: &str) -> Result<Arc<str>, E> {
+                if name.is_empty() {
+                    if let Some(file) = span_file() {
+                        return Ok(file);
+                    }
                 }
-            }))
+                Ok(LAST.with(|last| {
+                    let mut last = last.borrow_mut();
+                    match &*last {
+                        Some(file) if **file == *name => file.clone(),
+                        _ => last.insert(Arc::from(name)).clone(),
+                    }
+                }))
+            }
         }
+        d.deserialize_str(Name)
     }
-    d.deserialize_str(Name)
 }
 
 impl fmt::Display for Span {

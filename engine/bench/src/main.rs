@@ -129,14 +129,19 @@ fn edit_one_input(project: &Path) {
 /// How many times each run is measured.
 const REPEATS: usize = 5;
 
-/// Runs the project at `dir` in process: the time until the run returns
-/// (freeing what it returns is its caller's; the `packwright` binary
-/// leaves that to the end of the process) and how many items it computed.
+/// Runs the project at `dir` in process as `packwright run` does (compute,
+/// then write `results/` and the cache): the time until the results are
+/// written, and how many items it computed. Freeing the run's data comes
+/// after the clock stops: the `packwright` binary leaves it to the end of
+/// the process.
 fn timed_run(dir: &Path, registry: &packwright_core::Registry, what: &str) -> (f64, usize) {
     let start = Instant::now();
-    let ran = packwright_core::run_project(dir, registry, RunOptions::default())
+    let computed = packwright_core::compute_project(dir, registry, RunOptions::default())
         .unwrap_or_else(|e| panic!("{what}: {e}"));
-    (seconds(start), ran.1.computed)
+    computed
+        .write_results()
+        .unwrap_or_else(|e| panic!("{what}: {e}"));
+    (seconds(start), computed.outcome.computed)
 }
 
 /// The fastest, median and slowest time of some runs (time, items

@@ -47,7 +47,7 @@ use crate::resolve::PlannedItem;
 pub const ITEMS_FILE: &str = "items.bin";
 
 /// First bytes of the file; a new layout gets a new tag.
-const MAGIC: &[u8; 16] = b"packwright-itm-5";
+const MAGIC: &[u8; 16] = b"packwright-itm-6";
 
 /// How long before the stat a file's last change must lie for its stamp to
 /// vouch for what is then read. Linux stamps files from a clock that moves

@@ -114,7 +114,9 @@ pub struct ItemFile {
     pub written: Deferred<WrittenInputs>,
     /// Free text for the package.
     pub notes: Option<String>,
-    /// The file, relative to the root.
+    /// The file, relative to the root (in the item index, the entry's
+    /// own, so not stored again).
+    #[serde(with = "packwright_api::file_name")]
     pub file: Arc<str>,
 }
 
