@@ -5,9 +5,10 @@
 //!
 //! The cache lives in the hidden folder `.packwright-cache/` of the project
 //! (not meant to be committed). Losing it costs only time. State: the files
-//! in that folder: `outcomes.bin` (every outcome, one file), `index.bin`
-//! (see [`crate::index`]), `items.bin` (see [`crate::item_index`]),
-//! `results-spare/` (see
+//! in that folder: `outcomes.bin` (every outcome, one file), `fills.bin`
+//! (the filled inputs of items with links, under [`crate::run::fill_key`]),
+//! `index.bin` (see [`crate::index`]), `items.bin` (see
+//! [`crate::item_index`]), `results-spare/` (see
 //! [`crate::fsio::update_dir`]) and `lock`.
 //!
 //! Outcomes are stored in one file, in postcard's binary form, because a

@@ -1,5 +1,6 @@
 //! The layout shared by the cache's binary files (`outcomes.bin`,
-//! `items.bin`, `index.bin`): keyed records, kept as a journal.
+//! `items.bin`, `index.bin`, `fills.bin`): keyed records, kept as a
+//! journal.
 //!
 //! A file is a head (a 16-byte tag, a CRC-32 of the rest of the head, the
 //! identity of the build that wrote the file and the file's own key) and
@@ -9,8 +10,9 @@
 //! what changed, so a one-item change writes in proportion to it rather
 //! than the whole file (a megabyte per thousand items, and a new file whose
 //! old blocks the file system must free); the file is written whole when
-//! it holds as many stale records as live ones, so it does not grow without
-//! bound.
+//! its stale records pass an eighth of its live ones (see [`save`]), so it
+//! neither grows without bound nor makes every reader read much that is no
+//! longer used.
 //!
 //! A file whose tag, head checksum, build or key differs is not used at
 //! all: the readers decode what they find without further checks (an
