@@ -191,8 +191,8 @@ impl ItemIndex {
             crate::deferred::decoding_within(&journal.bytes, || postcard::from_bytes(stored))
         })
         .ok()?;
-        // Spans and the file name are the index key's: a renamed file is
-        // another entry.
+        // The entry names its file only as its key (a renamed file is
+        // another entry); a name stored all the same must be that one.
         (*stored.item.file == **rel).then(|| Reused {
             planned: stored.planned.map(|parts| parts.planned(&stored.item)),
             item: stored.item,

@@ -506,8 +506,6 @@ pub fn compute_project(
         .map(|(id, run)| {
             let name = format!("{id}.yaml");
             let key = index::result_key(run);
-            // The index's summary line of an item under the same key; a
-            // line made again would decode the item's outcome.
             let mut stored = index.get(&name);
             // The index's summary line of an item under the same key; a
             // line made again would decode the item's outcome.
