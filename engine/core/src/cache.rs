@@ -88,23 +88,14 @@ impl Stored {
     /// Where the glance and the whole outcome of `digest` lie: its value
     /// is those two parts; a value that does not split so is no hit.
     fn entry(&self, digest: &str) -> Option<Ranges> {
-        let journal = self.0.as_ref()?;
-        let value = journal.get(digest)?;
-        let mut at = value.start;
-        let glance = framed::read_part(&journal.bytes, &mut at)?;
-        let full = framed::read_part(&journal.bytes, &mut at)?;
-        (at == value.end).then_some((glance, full))
+        let [glance, full] = self.0.as_ref()?.parts(digest)?;
+        Some((glance, full))
     }
 }
 
 /// An entry's value: the encoded glance and the encoded outcome.
 fn entry_value(glance: &[u8], full: &[u8]) -> Vec<u8> {
-    let mut value = Vec::with_capacity(glance.len() + full.len() + 8);
-    for part in [glance, full] {
-        value.extend_from_slice(&(part.len() as u32).to_le_bytes());
-        value.extend_from_slice(part);
-    }
-    value
+    framed::join_parts(&[glance, full])
 }
 
 /// An outcome's entry value, encoded now.
@@ -165,14 +156,15 @@ impl Cache {
         let whole = || {
             let mut all = framed::Records::new();
             for (digest, run) in &wanted {
-                let value = match (stored.entry(digest), &stored.0) {
-                    (Some((glance, full)), Some(journal)) => {
-                        Some(entry_value(&journal.bytes[glance], &journal.bytes[full]))
+                // An entry that splits as one should is kept as it is.
+                let kept = stored.entry(digest).and(stored.0.as_ref());
+                match kept.and_then(|journal| journal.value(digest)) {
+                    Some(value) => all.set(digest, value),
+                    None => {
+                        if let Some(value) = encode_entry(run) {
+                            all.set(digest, &value);
+                        }
                     }
-                    _ => encode_entry(run),
-                };
-                if let Some(value) = value {
-                    all.set(digest, &value);
                 }
             }
             all
@@ -210,16 +202,15 @@ impl Cache {
         let mut changes = framed::Records::new();
         for (name, run) in &linked {
             if old.and_then(|j| j.get(name)).is_none() {
-                let Some(value) = fill_value(run) else { return };
-                changes.set(name, &value);
+                changes.set(name, &fill_value(run));
             }
         }
         let whole = || {
             let mut all = framed::Records::new();
             for (name, run) in &linked {
-                let kept = old.and_then(|j| Some(j.bytes[j.get(name)?].to_vec()));
-                if let Some(value) = kept.or_else(|| fill_value(run)) {
-                    all.set(name, &value);
+                match old.and_then(|j| j.value(name)) {
+                    Some(kept) => all.set(name, kept),
+                    None => all.set(name, &fill_value(run)),
                 }
             }
             all
@@ -260,17 +251,12 @@ fn hex(key: &crate::index::Hash) -> String {
 /// A fills record's value: the inputs digest, the origins digest and the
 /// filled inputs in their stored form (spans in the item's own file
 /// without its name, as in the item index).
-fn fill_value(run: &crate::run::ItemRun) -> Option<Vec<u8>> {
+fn fill_value(run: &crate::run::ItemRun) -> Vec<u8> {
     let origins = crate::index::origins_digest(&run.inputs);
     let file = Some(run.item.file.clone());
     let inputs =
         packwright_api::with_span_file(file, || crate::deferred::StoredForm::encode(&*run.inputs));
-    let mut value = Vec::new();
-    for part in [run.inputs_digest.as_bytes(), &origins[..], &inputs] {
-        value.extend_from_slice(&(part.len() as u32).to_le_bytes());
-        value.extend_from_slice(part);
-    }
-    Some(value)
+    framed::join_parts(&[run.inputs_digest.as_bytes(), &origins, &inputs])
 }
 
 impl OutcomeStore for Cache {
@@ -287,14 +273,7 @@ impl OutcomeStore for Cache {
         key: &crate::index::Hash,
     ) -> Option<crate::run::Filled> {
         let journal = self.fills()?;
-        let value = journal.get(&hex(key))?;
-        let mut at = value.start;
-        let digest = framed::read_part(&journal.bytes, &mut at)?;
-        let origins = framed::read_part(&journal.bytes, &mut at)?;
-        let inputs = framed::read_part(&journal.bytes, &mut at)?;
-        if at != value.end {
-            return None;
-        }
+        let [digest, origins, inputs] = journal.parts(&hex(key))?;
         let digest = std::str::from_utf8(&journal.bytes[digest])
             .ok()?
             .to_string();

@@ -48,6 +48,14 @@ fn head(tag: &[u8; 16], key: &[u8]) -> Option<Vec<u8>> {
     Some(out)
 }
 
+/// A value made of parts, each preceded by its length (read back with
+/// [`Journal::parts`]).
+pub(crate) fn join_parts(parts: &[&[u8]]) -> Vec<u8> {
+    let mut value = Vec::with_capacity(parts.iter().map(|p| p.len() + 4).sum());
+    parts.iter().for_each(|part| push_part(&mut value, part));
+    value
+}
+
 /// Appends one part.
 fn push_part(out: &mut Vec<u8>, part: &[u8]) {
     out.extend_from_slice(&(part.len() as u32).to_le_bytes());
@@ -55,7 +63,7 @@ fn push_part(out: &mut Vec<u8>, part: &[u8]) {
 }
 
 /// Reads the part at `at`, moving past it; `None` when it runs past the end.
-pub(crate) fn read_part(bytes: &[u8], at: &mut usize) -> Option<Range<usize>> {
+fn read_part(bytes: &[u8], at: &mut usize) -> Option<Range<usize>> {
     let len = bytes.get(*at..*at + 4)?;
     let n = u32::from_le_bytes(len.try_into().ok()?) as usize;
     let start = *at + 4;
@@ -186,6 +194,24 @@ impl Journal {
     /// Where the latest value of `name` lies in [`Journal::bytes`].
     pub(crate) fn get(&self, name: &str) -> Option<Range<usize>> {
         self.latest.get(name).cloned()
+    }
+
+    /// The latest value of `name`.
+    pub(crate) fn value(&self, name: &str) -> Option<&[u8]> {
+        Some(&self.bytes[self.get(name)?])
+    }
+
+    /// Where in [`Journal::bytes`] the `N` parts of the latest value of
+    /// `name` lie, when the value is exactly `N` parts (see
+    /// [`join_parts`]); a value that does not split so counts as none.
+    pub(crate) fn parts<const N: usize>(&self, name: &str) -> Option<[Range<usize>; N]> {
+        let value = self.get(name)?;
+        let mut at = value.start;
+        let mut parts: [Range<usize>; N] = std::array::from_fn(|_| 0..0);
+        for part in &mut parts {
+            *part = read_part(&self.bytes, &mut at)?;
+        }
+        (at == value.end).then_some(parts)
     }
 
     /// Every name with the range of its latest value.

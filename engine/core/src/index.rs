@@ -248,14 +248,12 @@ impl Index {
 
     /// The stored entry of `results/NAME`, if any.
     pub fn get(&self, name: &str) -> Option<Entry> {
-        let journal = self.journal.as_ref()?;
-        postcard::from_bytes(&journal.bytes[journal.get(name)?]).ok()
+        postcard::from_bytes(self.stored(name)?).ok()
     }
 
     /// The stored form of the entry of `name`, if any.
     fn stored(&self, name: &str) -> Option<&[u8]> {
-        let journal = self.journal.as_ref()?;
-        Some(&journal.bytes[journal.get(name)?])
+        self.journal.as_ref()?.value(name)
     }
 
     /// Writes the index of `entries` (without flushing: a lost index costs

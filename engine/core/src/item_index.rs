@@ -201,15 +201,12 @@ impl ItemIndex {
 
     /// The recorded stamp of file `rel` and the rest of its entry.
     fn raw(&self, rel: &str) -> Option<(Stamp, &[u8])> {
-        let journal = self.journal.as_ref()?;
-        let value = &journal.bytes[journal.get(rel)?];
-        postcard::take_from_bytes::<Stamp>(value).ok()
+        postcard::take_from_bytes::<Stamp>(self.entry(rel)?).ok()
     }
 
     /// The whole recorded entry of file `rel` (stamp included).
     fn entry(&self, rel: &str) -> Option<&[u8]> {
-        let journal = self.journal.as_ref()?;
-        Some(&journal.bytes[journal.get(rel)?])
+        self.journal.as_ref()?.value(rel)
     }
 }
 

@@ -247,7 +247,7 @@ impl SharedOutcome {
     }
 }
 
-crate::deferred::stored_as_postcard!(Outcome, Glance);
+crate::deferred::stored_as_postcard!(Outcome);
 
 impl From<Outcome> for SharedOutcome {
     fn from(outcome: Outcome) -> SharedOutcome {
